@@ -35,3 +35,35 @@ class Interval:
 
     def as_list(self) -> list[float]:
         return [float(self.low), float(self.high)]
+
+
+def resolution(interval: Interval) -> float:
+    """The smallest margin an evaluation set can resolve: the interval's half-width.
+
+    A policy margin (``max_drop``, or the distance of a floor from the estimate) smaller than this
+    cannot be shown either way by the data at the interval's confidence; reports warn about it.
+
+    Parameters
+    ----------
+    interval : Interval
+        Any two-sided interval (of a metric or of a paired difference).
+
+    Returns
+    -------
+    float
+        ``(high - low) / 2``. For asymmetric intervals (Wilson, logit-scale DeLong) this is the
+        mean of the two arms, not either arm.
+
+    Raises
+    ------
+    ValueError
+        When an end of the interval is not finite.
+
+    Examples
+    --------
+    >>> resolution(Interval(0.80, 0.90, 0.95, "delong"))  # doctest: +ELLIPSIS
+    0.05...
+    """
+    if not (math.isfinite(interval.low) and math.isfinite(interval.high)):
+        raise ValueError(f"interval ends must be finite, got [{interval.low}, {interval.high}]")
+    return interval.half_width
