@@ -1,0 +1,687 @@
+"""Policy x score tables -> Result: one CheckResult per check and slice, with its decision.
+
+This is the gate's engine. For each ``[[check]]`` of the policy, and for each slice of its ``by``
+column, it computes the candidate's metric with a two-sided confidence interval and, for checks with
+a non-regression margin, the paired difference against the baseline (same examples, paired by id).
+
+Methods
+-------
+- ``roc_auc``: DeLong's variance (one model) and paired DeLong (difference), unless the policy asks
+  for the bootstrap or the table is weighted (DeLong's structural components assume unit weights).
+- ``recall_at_threshold`` / ``fpr_at_threshold`` without a baseline and without weights: a binomial
+  interval (Wilson by default, Clopper-Pearson on request).
+- every other metric, weighted data and every other paired difference: the stratified bootstrap
+  (paired: the same resampled examples for candidate and baseline), percentile intervals.
+
+Decision rule (DESIGN.md): the interval wholly on the passing side of a bound passes, wholly on the
+failing side fails, straddling is inconclusive, then resolved by ``[stats] on_inconclusive``.
+With ``[stats] adjust = "holm"`` a failure must also survive Holm's adjustment across every bound
+that can fail (each a one-sided test of "the requirement holds", p from the normal approximation
+with the interval's standard error); one that does not becomes inconclusive.
+
+Seeds: each check and slice draws its bootstrap from a seed derived from ``[stats] seed``, the
+check's position and the slice value, so a report does not change when checks are added elsewhere
+in the policy's list or slices are evaluated in a different order.
+"""
+
+from __future__ import annotations
+
+import math
+import zlib
+from collections.abc import Callable
+from dataclasses import dataclass, replace
+from os import PathLike
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+from gate import ranking as rk
+from gate.errors import BaselineError, TableError, UndefinedMetricError
+from gate.results import Bound, CheckResult, Decision, Result, SliceKey
+from gate.stats.interval import Interval
+
+if TYPE_CHECKING:  # pragma: no cover
+    from gate.baseline import Alignment, Baseline
+    from gate.io import ScoreTable
+    from gate.policy import Check, Policy
+
+Progress = Callable[[int, int], None]
+
+MISSING_SLICE = "(missing)"
+
+_METRIC_LABELS = {
+    "roc_auc": "ROC AUC",
+    "average_precision": "average precision",
+    "partial_auc": "partial AUC (McClish)",
+    "recall_at_fpr": "recall at FPR",
+    "precision_at_recall": "precision at recall",
+    "recall_at_threshold": "recall at threshold",
+    "fpr_at_threshold": "FPR at threshold",
+    "expected_cost": "expected cost",
+    "brier": "Brier score",
+}
+
+
+def _statistic(check: Check) -> Callable[[rk.TieBlocks], Any]:
+    """The check's metric as a function of (possibly batched) tie blocks."""
+    m = check.metric
+    p = check.params
+    if m == "roc_auc":
+        return rk.roc_auc
+    if m == "average_precision":
+        return rk.average_precision
+    if m == "partial_auc":
+        return lambda b: rk.partial_auc(b, max_fpr=p["max_fpr"]).standardized
+    if m == "recall_at_fpr":
+        return lambda b: rk.recall_at_fpr_values(b, fpr=p["fpr"])
+    if m == "precision_at_recall":
+        return lambda b: rk.precision_at_recall_values(b, recall=p["recall"])
+    if m == "recall_at_threshold":
+        return lambda b: _rate(rk.confusion_at(b, threshold=p["threshold"]), "recall")
+    if m == "fpr_at_threshold":
+        return lambda b: _rate(rk.confusion_at(b, threshold=p["threshold"]), "fpr")
+    if m == "expected_cost":
+        return lambda b: rk.expected_cost(
+            b, threshold=p["threshold"], cost_fp=p["cost_fp"], cost_fn=p["cost_fn"]
+        )
+    if m == "brier":
+        return rk.brier
+    raise UndefinedMetricError(f"unknown metric {m!r}")  # the policy layer rejects these first
+
+
+def _rate(conf: rk.Confusion, which: str) -> Any:
+    tp, fp, tn, fn = (np.asarray(x, dtype=np.float64) for x in (conf.tp, conf.fp, conf.tn, conf.fn))
+    if which == "recall":
+        out = tp / (tp + fn)
+    else:
+        out = fp / (fp + tn)
+    return float(out) if out.ndim == 0 else out
+
+
+def _z(confidence: float) -> float:
+    from scipy.stats import norm
+
+    return float(norm.ppf(0.5 + confidence / 2.0))
+
+
+def _norm_cdf(x: float) -> float:
+    return 0.5 * math.erfc(-x / math.sqrt(2.0))
+
+
+def _seed_for(base_seed: int, check_index: int, slice_value: str | None) -> int:
+    """A per-check, per-slice seed that does not depend on evaluation order."""
+    tag = zlib.crc32((slice_value if slice_value is not None else "\x00overall").encode("utf-8"))
+    ss = np.random.SeedSequence([int(base_seed) % (2**63), check_index, tag])
+    return int(ss.generate_state(1, dtype=np.uint64)[0] % (2**63))
+
+
+@dataclass(frozen=True)
+class _Judged:
+    outcome: str
+    decision: Decision
+
+
+def _decide(bound: Bound, estimate: float, interval: Interval, confidence: float) -> Decision:
+    """Compare one interval with one bound (the DESIGN.md rule) and give the one-sided p of failing."""
+    if bound.kind == "at_least":
+        limit = bound.value
+        ok_side_low = True  # passing side is above the limit
+    elif bound.kind == "at_most":
+        limit = bound.value
+        ok_side_low = False
+    elif bound.kind == "max_drop":
+        limit = -bound.value  # delta = candidate - baseline must stay >= -max_drop
+        ok_side_low = True
+    else:  # max_rise
+        limit = bound.value  # delta must stay <= max_rise
+        ok_side_low = False
+    if ok_side_low:
+        if interval.low >= limit:
+            outcome = "pass"
+        elif interval.high < limit:
+            outcome = "fail"
+        else:
+            outcome = "inconclusive"
+    else:
+        if interval.high <= limit:
+            outcome = "pass"
+        elif interval.low > limit:
+            outcome = "fail"
+        else:
+            outcome = "inconclusive"
+    # One-sided p of H0 "the requirement holds" from the normal approximation with the interval's SE.
+    se = interval.half_width / _z(confidence)
+    if se > 0:
+        zstat = (estimate - limit) / se if ok_side_low else (limit - estimate) / se
+        p_fail = _norm_cdf(zstat)
+    else:
+        p_fail = 0.0 if outcome == "fail" else 1.0
+    return Decision(bound=bound, outcome=outcome, estimate=float(estimate), interval=interval, p_value=p_fail)
+
+
+def _estimate_passes(decision: Decision) -> bool:
+    b = decision.bound
+    if b.kind == "at_least":
+        return decision.estimate >= b.value
+    if b.kind == "at_most":
+        return decision.estimate <= b.value
+    if b.kind == "max_drop":
+        return decision.estimate >= -b.value
+    return decision.estimate <= b.value
+
+
+def _combine(decisions: list[Decision]) -> str:
+    outcomes = [d.outcome for d in decisions]
+    if "fail" in outcomes:
+        return "fail"
+    if "inconclusive" in outcomes:
+        return "inconclusive"
+    return "pass"
+
+
+def _resolve(outcome: str, decisions: list[Decision], rule: str) -> bool:
+    if outcome == "pass":
+        return True
+    if outcome == "fail":
+        return False
+    if rule == "pass":
+        return True
+    if rule == "fail":
+        return False
+    # "estimate": every bound judged on its point estimate (a decided bound keeps its verdict).
+    return all(
+        d.outcome == "pass" or (d.outcome == "inconclusive" and _estimate_passes(d)) for d in decisions
+    )
+
+
+# --- input coercion -----------------------------------------------------------------------------
+
+
+def _as_policy(policy: Policy | str | PathLike[str]) -> Policy:
+    from gate.policy import Policy, load_policy
+
+    if isinstance(policy, Policy):
+        return policy
+    return load_policy(Path(policy))
+
+
+def _as_table(obj: Any, policy: Policy, what: str) -> ScoreTable:
+    from gate.io import ScoreTable, read_table, table_from_frame
+
+    spec = policy.data.column_spec()
+    if isinstance(obj, ScoreTable):
+        return obj
+    if isinstance(obj, (str, PathLike)):
+        return read_table(Path(obj), spec)
+    try:
+        import pandas as pd
+    except ImportError:  # pragma: no cover - pandas is a runtime dependency
+        pd = None
+    if pd is not None and isinstance(obj, pd.DataFrame):
+        return table_from_frame(obj, spec, source=f"<{what} DataFrame>")
+    raise TypeError(f"{what} must be a ScoreTable, a pandas DataFrame or a path, got {type(obj).__name__}")
+
+
+def _as_baseline(obj: Any, policy: Policy) -> tuple[ScoreTable, str, str | None]:
+    """(table, source description, note) of the baseline."""
+    from gate.baseline import Baseline, load_baseline
+
+    if isinstance(obj, Baseline):
+        return obj.table, obj.table.source, obj.manifest.note
+    if isinstance(obj, (str, PathLike)) and Path(obj).is_dir():
+        b = load_baseline(Path(obj))
+        return b.table, str(obj), b.manifest.note
+    table = _as_table(obj, policy, "baseline")
+    return table, table.source, None
+
+
+# --- per check ----------------------------------------------------------------------------------
+
+
+@dataclass
+class _Context:
+    policy: Policy
+    progress: Progress | None
+
+
+def _slices(check: Check, table: ScoreTable) -> list[tuple[SliceKey | None, NDArray[np.bool_] | None]]:
+    if check.by is None:
+        return [(None, None)]
+    if check.by not in table.columns:
+        have = ", ".join(sorted(table.columns)) or "(none besides id/label/score)"
+        raise TableError(
+            f"{table.source}: column {check.by!r} (check {check.name!r}, by) not found; other columns: {have}"
+        )
+    raw = table.columns[check.by]
+    text = np.array([_slice_text(v) for v in raw], dtype=object)
+    out: list[tuple[SliceKey | None, NDArray[np.bool_] | None]] = []
+    for value in sorted(set(text.tolist())):
+        out.append((SliceKey(check.by, value), text == value))
+    return out
+
+
+def _slice_text(v: Any) -> str:
+    if v is None:
+        return MISSING_SLICE
+    if isinstance(v, float):
+        if math.isnan(v):
+            return MISSING_SLICE
+        if v.is_integer():
+            return str(int(v))
+    try:
+        import pandas as pd
+
+        if v is pd.NA or v is pd.NaT:
+            return MISSING_SLICE
+    except ImportError:  # pragma: no cover
+        pass
+    return str(v)
+
+
+def _sub(table: ScoreTable, mask: NDArray[np.bool_] | None) -> ScoreTable:
+    if mask is None:
+        return table
+    from gate.io import subset
+
+    return subset(table, mask)
+
+
+def _weighted_counts(table: ScoreTable) -> tuple[float, float]:
+    if table.weights is None:
+        return float(table.n_pos), float(table.n_neg)
+    w = table.weights
+    return float(w[table.labels].sum()), float(w[~table.labels].sum())
+
+
+def _use_delong(check: Check, policy: Policy, *tables: ScoreTable) -> bool:
+    return (
+        check.metric == "roc_auc"
+        and policy.stats.interval == "delong"
+        and all(t.weights is None for t in tables)
+    )
+
+
+def _evaluate_one(
+    ctx: _Context,
+    check: Check,
+    check_index: int,
+    key: SliceKey | None,
+    cand: ScoreTable,
+    base: ScoreTable | None,
+) -> CheckResult:
+    from gate import stats as st
+
+    pol = ctx.policy
+    conf = pol.stats.confidence
+    params = check.params
+    common = dict(
+        name=check.name,
+        metric=check.metric,
+        params=params,
+        slice=key,
+        n=cand.n,
+        n_pos=cand.n_pos,
+        n_neg=cand.n_neg,
+    )
+    pos_w, neg_w = _weighted_counts(cand)
+    if key is not None and cand.n_pos < check.min_positives:
+        return CheckResult(
+            **common,
+            outcome="skipped",
+            passed=True,
+            value=None,
+            interval=None,
+            reason=f"skipped: {cand.n_pos} positives, fewer than min_positives = {check.min_positives}",
+        )
+    if pos_w <= 0 or neg_w <= 0:
+        missing = "positives" if pos_w <= 0 else "negatives"
+        if key is not None:
+            return CheckResult(
+                **common,
+                outcome="skipped",
+                passed=True,
+                value=None,
+                interval=None,
+                reason=f"skipped: no {missing} in this slice",
+            )
+        raise UndefinedMetricError(
+            f"{cand.source}: check {check.name!r}: {check.metric} is undefined, no {missing} in the evaluation set"
+        )
+
+    statistic = _statistic(check)
+    seed = _seed_for(pol.stats.seed, check_index, None if key is None else key.value)
+    resamples = pol.stats.resamples
+    c_rank = rk.rank(cand.scores, cand.labels, cand.weights)
+    c_blocks = c_rank.blocks()
+    value = float(statistic(c_blocks))
+    threshold = _operating_threshold(check, c_blocks)
+
+    interval: Interval
+    method: str
+    warnings: list[str] = []
+    baseline_value = delta = None
+    delta_interval: Interval | None = None
+
+    margin = check.margin
+    if margin is not None:
+        assert base is not None
+        b_rank = rk.rank(base.scores, base.labels, base.weights)
+        baseline_value = float(statistic(b_rank.blocks()))
+        if _use_delong(check, pol, cand, base):
+            est = st.delong(c_rank)
+            interval = est.interval(confidence=conf, scale=_auc_scale(pol))
+            paired = st.paired_delong(c_rank, b_rank)
+            delta = float(paired.delta)
+            delta_interval = paired.delta_interval(confidence=conf)
+            method = "delong"
+        else:
+            pb = st.paired_bootstrap(
+                c_rank,
+                b_rank,
+                statistic,
+                resamples=resamples,
+                seed=seed,
+                confidence=conf,
+                progress=ctx.progress,
+            )
+            interval = pb.interval_a(method="percentile")
+            delta = float(pb.delta)
+            delta_interval = pb.delta_interval(method="percentile")
+            method = "bootstrap-percentile"
+    else:
+        interval, method = _single_interval(ctx, check, c_rank, cand, statistic, seed)
+
+    decisions: list[Decision] = []
+    if check.floor is not None:
+        decisions.append(_decide(check.floor, value, interval, conf))
+    if margin is not None:
+        assert delta is not None and delta_interval is not None
+        decisions.append(_decide(margin, delta, delta_interval, conf))
+        if margin.value < delta_interval.half_width:
+            warnings.append(
+                f"{margin.kind} = {margin.value:g} is below what this evaluation set can resolve "
+                f"(difference interval half-width {delta_interval.half_width:.4f})"
+            )
+    floor_d = next((d for d in decisions if d.bound.kind in ("at_least", "at_most")), None)
+    margin_d = next((d for d in decisions if d.bound.kind in ("max_drop", "max_rise")), None)
+    outcome = _combine(decisions)
+    return CheckResult(
+        **common,
+        outcome=outcome,  # type: ignore[arg-type]
+        passed=_resolve(outcome, decisions, pol.stats.on_inconclusive),
+        value=value,
+        interval=interval,
+        baseline_value=baseline_value,
+        delta=delta,
+        delta_interval=delta_interval,
+        floor=floor_d,
+        margin=margin_d,
+        method=method,
+        threshold=threshold,
+        reason="",
+        warnings=tuple(warnings),
+    )
+
+
+def _single_interval(
+    ctx: _Context,
+    check: Check,
+    c_rank: rk.Ranking,
+    cand: ScoreTable,
+    statistic: Callable[[rk.TieBlocks], Any],
+    seed: int,
+) -> tuple[Interval, str]:
+    from gate import stats as st
+
+    pol = ctx.policy
+    conf = pol.stats.confidence
+    if _use_delong(check, pol, cand):
+        return st.delong(c_rank).interval(confidence=conf, scale=_auc_scale(pol)), "delong"
+    if check.metric in ("recall_at_threshold", "fpr_at_threshold") and cand.weights is None:
+        t = check.params["threshold"]
+        flagged = cand.scores >= t
+        if check.metric == "recall_at_threshold":
+            k, n = int(np.count_nonzero(flagged & cand.labels)), cand.n_pos
+        else:
+            k, n = int(np.count_nonzero(flagged & ~cand.labels)), cand.n_neg
+        method = pol.stats.proportion_method
+        return st.proportion_interval(k, n, confidence=conf, method=method), method
+    boot = st.bootstrap(
+        c_rank,
+        statistic,
+        resamples=pol.stats.resamples,
+        seed=seed,
+        confidence=conf,
+        stratified=True,
+        progress=ctx.progress,
+    )
+    return boot.interval(method="percentile"), "bootstrap-percentile"
+
+
+def _operating_threshold(check: Check, blocks: rk.TieBlocks) -> float | None:
+    if check.metric == "recall_at_fpr":
+        t = rk.recall_at_fpr(blocks, fpr=check.params["fpr"]).threshold
+    elif check.metric == "precision_at_recall":
+        t = rk.precision_at_recall(blocks, recall=check.params["recall"]).threshold
+    elif "threshold" in check.params:
+        t = check.params["threshold"]
+    else:
+        return None
+    return float(t)
+
+
+# --- multiplicity and reasons -------------------------------------------------------------------
+
+
+def _holm_adjust(checks: list[CheckResult], policy: Policy) -> list[CheckResult]:
+    """Holm across every bound that can fail: a failure must survive the adjustment."""
+    from gate.stats import holm
+
+    alpha = (1.0 - policy.stats.confidence) / 2.0
+    slots: list[tuple[int, str]] = []
+    pvals: list[float] = []
+    for i, c in enumerate(checks):
+        for attr in ("floor", "margin"):
+            d = getattr(c, attr)
+            if d is not None and d.p_value is not None:
+                slots.append((i, attr))
+                pvals.append(d.p_value)
+    if not pvals:
+        return checks
+    adjusted = holm(np.asarray(pvals, dtype=np.float64))
+    out = list(checks)
+    for (i, attr), p_adj in zip(slots, adjusted, strict=True):
+        c = out[i]
+        d: Decision = getattr(c, attr)
+        new_outcome = d.outcome
+        if d.outcome == "fail" and p_adj >= alpha:
+            new_outcome = "inconclusive"
+        out[i] = replace(c, **{attr: replace(d, adjusted_p_value=float(p_adj), outcome=new_outcome)})
+    for i, c in enumerate(out):
+        if c.outcome == "skipped":
+            continue
+        decisions = [d for d in (c.floor, c.margin) if d is not None]
+        outcome = _combine(decisions)
+        out[i] = replace(
+            c,
+            outcome=outcome,  # type: ignore[arg-type]
+            passed=_resolve(outcome, decisions, policy.stats.on_inconclusive),
+        )
+    return out
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4f}"
+
+
+def _reason(c: CheckResult, rule: str) -> str:
+    if c.outcome == "skipped":
+        return c.reason
+    parts = []
+    for d in (c.floor, c.margin):
+        if d is None:
+            continue
+        b = d.bound
+        iv = f"[{_fmt(d.interval.low)}, {_fmt(d.interval.high)}]"
+        if b.kind == "at_least":
+            req = f"{c.metric} >= {b.value:g}"
+            got = f"value {_fmt(d.estimate)} {iv}"
+        elif b.kind == "at_most":
+            req = f"{c.metric} <= {b.value:g}"
+            got = f"value {_fmt(d.estimate)} {iv}"
+        elif b.kind == "max_drop":
+            req = f"drop vs baseline <= {b.value:g}"
+            got = f"difference {_fmt(d.estimate)} {iv}"
+        else:
+            req = f"rise vs baseline <= {b.value:g}"
+            got = f"difference {_fmt(d.estimate)} {iv}"
+        word = {"pass": "met", "fail": "not met", "inconclusive": "undecided"}[d.outcome]
+        parts.append(f"{req}: {word} ({got})")
+    text = "; ".join(parts)
+    if c.outcome == "inconclusive":
+        how = {
+            "estimate": "resolved by the point estimate",
+            "fail": "counted as a failure",
+            "pass": "counted as a pass",
+        }[rule]
+        text += f"; inconclusive, {how}: {'pass' if c.passed else 'fail'}"
+    return text
+
+
+def _methods_line(policy: Policy, checks: list[CheckResult]) -> str:
+    used = sorted({c.method for c in checks if c.method})
+    conf = policy.stats.confidence
+    parts = [f"{conf * 100:g}% two-sided intervals"]
+    names = {
+        "delong": "DeLong (paired DeLong for differences)",
+        "bootstrap-percentile": (
+            f"stratified bootstrap, percentile (paired for differences), {policy.stats.resamples} resamples, "
+            f"seed {policy.stats.seed}"
+        ),
+        "wilson": "Wilson score interval",
+        "clopper-pearson": "Clopper-Pearson exact interval",
+    }
+    parts += [names.get(m, m) for m in used]
+    rule = {
+        "estimate": "inconclusive checks decided by the point estimate",
+        "fail": "inconclusive checks fail",
+        "pass": "inconclusive checks pass",
+    }[policy.stats.on_inconclusive]
+    parts.append(rule)
+    parts.append("Holm adjustment across failing bounds" if policy.stats.adjust == "holm" else "no multiplicity adjustment")
+    return "; ".join(parts)
+
+
+# --- public API ---------------------------------------------------------------------------------
+
+
+def evaluate(
+    policy: Policy | str | PathLike[str],
+    candidate: Any,
+    baseline: Any = None,
+    *,
+    progress: Progress | None = None,
+) -> Result:
+    """Evaluate a candidate's scores against a policy (and a baseline).
+
+    Parameters
+    ----------
+    policy : a :class:`gate.policy.Policy` or the path of a policy TOML file.
+    candidate : a ScoreTable, a pandas DataFrame or the path of a score table.
+    baseline : None, a baseline directory (see ``rankgate adopt``), a :class:`gate.baseline.Baseline`,
+        a ScoreTable, a DataFrame or a score-table path. Required when any check has a margin.
+    progress : optional callback ``(done, total)`` for long bootstraps.
+
+    Returns
+    -------
+    Result
+        One CheckResult per check and slice; ``verdict`` is "pass" when every check passed.
+
+    Raises
+    ------
+    GateError
+        On any input that cannot be evaluated (exit 2 in the CLI).
+    """
+    pol = _as_policy(policy)
+    cand = _as_table(candidate, pol, "candidate")
+    warnings: list[str] = []
+    notes: dict[str, str] = {}
+    base: ScoreTable | None = None
+    base_source: str | None = None
+    if baseline is not None:
+        from gate.baseline import align
+
+        base_table, base_source, note = _as_baseline(baseline, pol)
+        if note:
+            notes["baseline_note"] = note
+        al: Alignment = align(cand, base_table, on_mismatch=pol.baseline.on_mismatch)
+        cand, base = al.candidate, al.baseline
+        if al.intersected:
+            warnings.append(al.note)
+            notes["mismatch"] = al.note
+    elif pol.needs_baseline:
+        first = next(c for c in pol.checks if c.margin is not None)
+        raise BaselineError(
+            f"{pol.source}: check {first.name!r} has {first.margin.kind} (a non-regression margin) "
+            "but no baseline was given; pass --baseline DIR (store one with rankgate adopt)"
+        )
+
+    ctx = _Context(policy=pol, progress=progress)
+    results: list[CheckResult] = []
+    for index, check in enumerate(pol.checks):
+        for key, mask in _slices(check, cand):
+            c_sub = _sub(cand, mask)
+            b_sub = None if base is None or check.margin is None else _sub(base, mask)
+            results.append(_evaluate_one(ctx, check, index, key, c_sub, b_sub))
+
+    if pol.stats.adjust == "holm":
+        results = _holm_adjust(results, pol)
+    results = [replace(c, reason=_reason(c, pol.stats.on_inconclusive)) for c in results]
+
+    for c in results:
+        where = c.name if c.slice is None else f"{c.name} [{c.slice.column} = {c.slice.value}]"
+        if c.outcome == "inconclusive":
+            warnings.append(
+                f"{where}: inconclusive (the interval straddles the bound); the evaluation set is too "
+                f"small to be sure, {'passed' if c.passed else 'failed'} by the {pol.stats.on_inconclusive!r} rule"
+            )
+        elif c.outcome == "skipped":
+            warnings.append(f"{where}: {c.reason}")
+        for w in c.warnings:
+            warnings.append(f"{where}: {w}")
+
+    from gate.io import fingerprint
+
+    verdict = "pass" if all(c.passed for c in results) else "fail"
+    return Result(
+        verdict=verdict,
+        checks=tuple(results),
+        confidence=pol.stats.confidence,
+        resamples=pol.stats.resamples,
+        seed=pol.stats.seed,
+        on_inconclusive=pol.stats.on_inconclusive,
+        adjust=pol.stats.adjust,
+        policy_source=pol.source,
+        policy_hash=pol.hash,
+        candidate_source=cand.source,
+        baseline_source=base_source,
+        fingerprint=fingerprint(cand),
+        n=cand.n,
+        n_pos=cand.n_pos,
+        n_neg=cand.n_neg,
+        warnings=tuple(warnings),
+        methods=_methods_line(pol, results),
+        notes=notes,
+    )
+
+
+def metric_label(metric: str) -> str:
+    """A readable name for a metric key (for reports)."""
+    return _METRIC_LABELS.get(metric, metric)
+
+
+def _auc_scale(policy: Policy) -> str:
+    """Scale of the DeLong interval for one AUC: "auc" (Wald, clipped to [0, 1]) or "logit"."""
+    return str(getattr(policy.stats, "auc_scale", "auc"))
