@@ -250,6 +250,7 @@ class StatsSection(_Model):
     adjust: Literal["none", "holm"] = "none"
     interval: Literal["delong", "bootstrap"] = "delong"
     proportion_method: Literal["wilson", "clopper-pearson"] = "wilson"
+    auc_scale: Literal["auc", "logit"] = "auc"
 
     @field_validator("confidence")
     @classmethod
@@ -283,14 +284,15 @@ class BaselineSection(_Model):
 class WatchSection(_Model):
     """``[watch]``: the CUSUM used by nightly trend watching over the run history.
 
-    ``cusum_k`` (allowance) and ``cusum_h`` (decision interval) are in standard deviations of the
-    watched value; the reference value is the mean of the first ``reference_runs`` runs of the
-    window; nothing is judged before ``min_runs`` runs (default ``reference_runs + 1``).
+    ``cusum_k`` (allowance) and ``cusum_h`` (decision interval) are in standard errors (each run's
+    shortfall against the reference, standardised as :mod:`gate.watch` describes); the reference
+    value is the mean of the first ``reference_runs`` runs of the window; no drift verdict before
+    ``min_runs`` runs (default ``reference_runs + 1``).
     """
 
     cusum_k: float = 0.5
-    # h = 4 with k = 0.5 is common practice (h = 4 or 5 with k = 1/2 is the usual recommendation);
-    # docs/policy.md gives the average run lengths that choice implies.
+    # h = 4 or 5 with k = 0.5 is common practice (Montgomery's textbook recommendation [memory]);
+    # h = 4 reacts sooner. docs/policy.md gives the average run lengths both imply.
     cusum_h: float = 4.0
     reference_runs: int = 5
     min_runs: int = 6
@@ -322,8 +324,8 @@ class WatchSection(_Model):
     @field_validator("reference_runs")
     @classmethod
     def _reference_runs(cls, value: int) -> int:
-        if value < 2:
-            raise _fail("", f"must be >= 2 (a mean and a spread need two runs), got {value}")
+        if value < 1:
+            raise _fail("", f"must be >= 1, got {value}")
         return value
 
     @model_validator(mode="after")
@@ -456,7 +458,8 @@ class Check(_Model):
         if "min_positives" in self.model_fields_set and self.by is None:
             raise _fail("min_positives", "only applies to sliced checks; set 'by' or remove it")
         if not self.name:
-            return self.model_copy(update={"name": self.default_name()})
+            # The model is frozen; filling in the derived name during validation is the one write.
+            object.__setattr__(self, "name", self.default_name())
         return self
 
     # --- derived views used by evaluate and report ---
@@ -620,8 +623,6 @@ def _unknown_key_message(loc: tuple[Any, ...]) -> str:
     if section is None:
         return "unknown key"
     valid = list(_TOP_KEYS) if section == "" else _keys_of(_SECTION_MODELS[section])
-    if section == "" and key == "checks":
-        return "unknown key; checks are written as [[check]] tables"
     for other, model in _SECTION_MODELS.items():
         if other != section and key in _keys_of(model):
             return f"unknown key here; {key!r} belongs in {_SECTION_TITLES[other]}"
@@ -722,6 +723,8 @@ def _parse(text: str, *, source: str, digest: str) -> Policy:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise _toml_error(source, exc) from None
+    if "checks" in raw:  # the field's Python name; only the TOML spelling [[check]] is accepted
+        raise PolicyError(f"{source}: checks: unknown key; checks are written as [[check]] tables")
     try:
         document = _Document.model_validate(raw)
         return Policy(
