@@ -344,10 +344,10 @@ def _read_jsonl_arrow(path: Path, source: str, spec: ColumnSpec) -> _Raw | None:
     except (pa.ArrowException, OSError, ValueError):
         return None
     names = [str(n) for n in arrow.column_names]
-    if len(set(names)) != len(names):
+    if len(set(names)) != len(names) or arrow.num_rows == 0:
         return None
     columns = {name: _arrow_to_numpy(arrow.column(i)) for i, name in enumerate(names)}
-    if spec.id in columns and arrow.num_rows > 0 and arrow.column(spec.id).null_count == arrow.num_rows:
+    if arrow.column(spec.id).null_count == arrow.num_rows:
         # the explicit schema adds the id column even when no line has it
         if not _jsonl_has_key(path, spec.id):
             del columns[spec.id]
@@ -375,7 +375,7 @@ def _read_jsonl_python(path: Path, source: str) -> _Raw:
                 if not line.strip():
                     continue
                 try:
-                    obj = json.loads(line)
+                    obj = json.loads(line.rstrip("\r\n"))
                 except json.JSONDecodeError as exc:
                     raise TableError(
                         f"{source}: line {lineno} is not valid JSON ({exc.msg} at column {exc.colno})"
