@@ -8,6 +8,11 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
+from gate.errors import UndefinedMetricError
+from gate.ranking import Ranking
+
 
 def check_confidence(confidence: float, *, name: str = "confidence") -> float:
     """Return ``confidence`` as a float, or raise ValueError unless 0 < confidence < 1."""
@@ -50,3 +55,22 @@ def norm_ppf(p: float) -> float:
     from scipy.special import ndtri
 
     return float(ndtri(p))
+
+
+def check_same_examples(a: Ranking, b: Ranking) -> None:
+    """Raise UndefinedMetricError unless two rankings cover the same examples with the same labels.
+
+    The examples are matched by position in the original order (the caller aligned the tables).
+    """
+    if a.n != b.n:
+        raise UndefinedMetricError(
+            f"paired comparison needs the same examples: the rankings have {a.n} and {b.n} examples"
+        )
+    labels_b = np.empty(b.n, dtype=bool)
+    labels_b[b.order] = b.labels_sorted
+    mismatch = int(np.count_nonzero(labels_b[a.order] != a.labels_sorted))
+    if mismatch:
+        raise UndefinedMetricError(
+            f"paired comparison needs the same labels: {mismatch} examples are labelled differently "
+            "in the two rankings"
+        )

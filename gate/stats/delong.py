@@ -20,7 +20,7 @@ from numpy.typing import NDArray
 
 from gate.errors import UndefinedMetricError
 from gate.ranking import Ranking
-from gate.stats._common import check_confidence, check_finite, norm_cdf, z_two_sided
+from gate.stats._common import check_confidence, check_finite, check_same_examples, norm_cdf, z_two_sided
 from gate.stats.interval import Interval
 
 __all__ = ["AucEstimate", "PairedAuc", "delong", "paired_delong"]
@@ -263,35 +263,27 @@ def paired_delong(a: Ranking, b: Ranking) -> PairedAuc:
     """
     ca = _components(a)
     cb = _components(b)
-    if a.n != b.n:
-        raise UndefinedMetricError(
-            f"paired comparison needs the same examples: the rankings have {a.n} and {b.n} examples"
-        )
-    # Work in a's sorted order: a's components are then a monotone gather; b's need one
-    # permutation (b's block of each example, listed in a's order).
+    check_same_examples(a, b)
+    # Work in a's sorted order: a's placements are a monotone gather, b's need one permutation
+    # (b's block of each example, listed in a's order). np.take: faster than fancy indexing.
     labels = a.labels_sorted
-    labels_b_orig = np.empty(b.n, dtype=bool)
-    labels_b_orig[b.order] = b.labels_sorted
-    mismatch = np.count_nonzero(labels_b_orig[a.order] != labels)
-    if mismatch:
-        raise UndefinedMetricError(
-            f"paired comparison needs the same labels: {mismatch} examples are labelled differently "
-            "in the two rankings"
-        )
-    block_a = np.repeat(np.arange(a.starts.size), np.diff(a.starts, append=a.n))
-    block_b = b.block_of[a.order]
-    pos_a, neg_a = block_a[labels], block_a[~labels]
-    pos_b, neg_b = block_b[labels], block_b[~labels]
-
-    xa = ca.v10[pos_a] - ca.auc
-    xb = cb.v10[pos_b] - cb.auc
-    ya = ca.v01[neg_a] - ca.auc
-    yb = cb.v01[neg_b] - cb.auc
+    pos_idx = np.flatnonzero(labels)
+    neg_idx = np.flatnonzero(~labels)
+    block_b = np.take(b.block_of, a.order)
+    if a.starts.size == a.n:  # no ties in a: block index = sorted position
+        pa, na = pos_idx, neg_idx
+    else:
+        block_a = np.repeat(np.arange(a.starts.size), np.diff(a.starts, append=a.n))
+        pa, na = np.take(block_a, pos_idx), np.take(block_a, neg_idx)
+    xa = np.take(ca.v10, pa) - ca.auc
+    xb = np.take(cb.v10, np.take(block_b, pos_idx)) - cb.auc
+    ya = np.take(ca.v01, na) - ca.auc
+    yb = np.take(cb.v01, np.take(block_b, neg_idx)) - cb.auc
     m, n = ca.m, ca.n
     cov = float(np.dot(xa, xb)) / (m - 1) / m + float(np.dot(ya, yb)) / (n - 1) / n
-    dx = xa - xb
-    dy = ya - yb
-    var_delta = float(np.dot(dx, dx)) / (m - 1) / m + float(np.dot(dy, dy)) / (n - 1) / n
+    xa -= xb
+    ya -= yb
+    var_delta = float(np.dot(xa, xa)) / (m - 1) / m + float(np.dot(ya, ya)) / (n - 1) / n
     var_a = ca.var10 / m + ca.var01 / n
     var_b = cb.var10 / m + cb.var01 / n
     delta = ca.auc - cb.auc
@@ -336,23 +328,34 @@ def _components(r: Ranking) -> _Components:
             "DeLong's variance counts examples and is undefined for unequal example weights; "
             "use the bootstrap for weighted tables"
         )
-    # Counts (not weights): integer-valued float64 sums are exact.
-    lab = r.labels_sorted.astype(np.float64)
-    pos = np.add.reduceat(lab, r.starts)
-    neg = np.add.reduceat(1.0 - lab, r.starts)
-    m = int(round(pos.sum()))
-    n = int(round(neg.sum()))
+    # Counts (not weights), as exact integers: cumulative positives at the end of each block.
+    cum_pos = np.cumsum(r.labels_sorted, dtype=np.int64)
+    if r.starts.size == r.n:  # no ties: every block is one example
+        ends = np.arange(1, r.n + 1)
+    else:
+        ends = np.empty(r.starts.size, dtype=np.int64)
+        ends[:-1] = r.starts[1:]
+        ends[-1] = r.n
+        cum_pos = np.take(cum_pos, ends - 1)
+    cum_neg = ends - cum_pos
+    m = int(cum_pos[-1])
+    n = int(cum_neg[-1])
     if m < 2 or n < 2:
         raise UndefinedMetricError(
             f"DeLong's variance needs at least 2 positives and 2 negatives, got {m} positives and {n} negatives"
         )
-    neg_below = n - np.cumsum(neg)  # negatives in blocks strictly below each block
-    pos_above = np.cumsum(pos) - pos
-    v10 = (neg_below + 0.5 * neg) / n
-    v01 = (pos_above + 0.5 * pos) / m
+    pos = np.diff(cum_pos, prepend=0).astype(np.float64)
+    neg = np.diff(cum_neg, prepend=0).astype(np.float64)
+    # Placements: negatives strictly below the block plus half those in it, and likewise.
+    v10 = ((n - cum_neg) + 0.5 * neg) / n
+    v01 = (cum_pos - 0.5 * pos) / m
     auc = float(np.dot(pos, v10)) / m
-    var10 = float(np.dot(pos, (v10 - auc) ** 2)) / (m - 1)
-    var01 = float(np.dot(neg, (v01 - auc) ** 2)) / (n - 1)
+    d = v10 - auc
+    d *= d
+    var10 = float(np.dot(pos, d)) / (m - 1)
+    d = v01 - auc
+    d *= d
+    var01 = float(np.dot(neg, d)) / (n - 1)
     return _Components(auc, v10, v01, var10, var01, m, n)
 
 

@@ -61,8 +61,8 @@ def resolution(interval: Interval) -> float:
 
     Examples
     --------
-    >>> resolution(Interval(0.80, 0.90, 0.95, "delong"))  # doctest: +ELLIPSIS
-    0.05...
+    >>> resolution(Interval(0.75, 0.875, 0.95, "delong"))
+    0.0625
     """
     if not (math.isfinite(interval.low) and math.isfinite(interval.high)):
         raise ValueError(f"interval ends must be finite, got [{interval.low}, {interval.high}]")

@@ -1,0 +1,592 @@
+"""Bootstrap intervals over presorted rankings: stratified for one model, paired for two.
+
+A replicate is a vector of resampling counts over the examples. Tie blocks do not change when the
+examples are reweighted, so a replicate's tie blocks are the counts (times the table's own
+weights) summed per block of the ranking that was sorted once: no re-sort per replicate. A paired
+replicate gives the same counts to the same examples under the candidate's and the baseline's
+rankings.
+
+Determinism: one ``numpy.random.Generator`` is built from ``seed`` and each replicate draws its
+indices with its own calls, in replicate order, so the replicates do not depend on ``chunk_size``
+(which only bounds memory: the statistic sees ``chunk_size`` replicates at a time).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+from numpy.typing import NDArray
+
+from gate.errors import UndefinedMetricError
+from gate.ranking import Ranking, TieBlocks
+from gate.stats._common import check_confidence, check_finite, check_same_examples, norm_cdf, norm_ppf
+from gate.stats.interval import Interval
+
+__all__ = [
+    "BootstrapResult",
+    "PairedBootstrapResult",
+    "Progress",
+    "Statistic",
+    "bootstrap",
+    "paired_bootstrap",
+    "replicate_counts",
+]
+
+Statistic = Callable[[TieBlocks], NDArray[np.float64]]
+"""A metric applied to batched tie blocks (``pos``/``neg`` of shape ``(B, k)``), returning ``(B,)``."""
+
+Progress = Callable[[int, int], None]
+"""Called with ``(done, total)`` replicates after each chunk."""
+
+Method = Literal["percentile", "bca"]
+
+# Elements per (chunk, k) array handed to the statistic: 2**21 float64 = 16 MiB, so a chunk with
+# the statistic's own temporaries stays in the low hundreds of MiB whatever n is.
+_CHUNK_ELEMENTS = 2**21
+# BCa acceleration: delete-one jackknife up to this many examples, grouped jackknife above.
+_JACKKNIFE_GROUPS = 200
+
+
+@dataclass(frozen=True, eq=False)
+class BootstrapResult:
+    """A statistic on the data and its bootstrap replicates.
+
+    Attributes
+    ----------
+    estimate : float
+        The statistic on the data as given.
+    replicates : (B,) ndarray
+        The statistic on each bootstrap replicate, in replicate order.
+    se : float
+        Bootstrap standard error, the sample standard deviation (``ddof=1``) of the replicates.
+    confidence : float
+        Default confidence level of :meth:`interval`.
+    """
+
+    estimate: float
+    replicates: NDArray[np.float64]
+    se: float
+    confidence: float
+    _jackknife: Callable[[], NDArray[np.float64]] = field(repr=False)
+    _cache: dict[str, float] = field(default_factory=dict, repr=False)
+
+    @property
+    def acceleration(self) -> float:
+        """BCa acceleration ``a = sum(d^3) / (6 (sum d^2)^1.5)``, ``d = mean(J) - J`` over the
+        jackknife values ``J`` (computed on first use; see :func:`bootstrap`, Notes)."""
+        if "a" not in self._cache:
+            jk = self._jackknife()
+            d = jk.mean() - jk
+            ss = float(np.dot(d, d))
+            self._cache["a"] = float(np.sum(d**3)) / (6.0 * ss**1.5) if ss > 0.0 else 0.0
+        return self._cache["a"]
+
+    def interval(self, *, method: Method = "percentile", confidence: float | None = None) -> Interval:
+        """Two-sided bootstrap interval.
+
+        Parameters
+        ----------
+        method : {"percentile", "bca"}
+            "percentile": the ``(1 - c)/2`` and ``(1 + c)/2`` quantiles of the replicates (linear
+            interpolation). "bca": Efron's bias-corrected and accelerated percentiles.
+        confidence : float, optional
+            Defaults to the level given to the bootstrap.
+
+        Returns
+        -------
+        Interval
+            Method "bootstrap-percentile" or "bootstrap-bca".
+
+        Raises
+        ------
+        UndefinedMetricError
+            For BCa when every replicate lies on one side of the estimate (the bias correction
+            ``z0`` is infinite); use the percentile interval then.
+        """
+        c = self.confidence if confidence is None else check_confidence(confidence)
+        lo, hi = (1.0 - c) / 2.0, (1.0 + c) / 2.0
+        reps = self.replicates
+        if method == "percentile":
+            ql, qh = np.quantile(reps, [lo, hi])
+            return Interval(float(ql), float(qh), c, "bootstrap-percentile")
+        if method == "bca":
+            below = np.count_nonzero(reps < self.estimate) + 0.5 * np.count_nonzero(reps == self.estimate)
+            share = below / reps.size
+            if share <= 0.0 or share >= 1.0:
+                raise UndefinedMetricError(
+                    "BCa interval is undefined: every bootstrap replicate lies on one side of the "
+                    f"estimate {self.estimate:g}; use the percentile interval"
+                )
+            z0 = norm_ppf(share)
+            a = self.acceleration
+            levels = []
+            for q in (lo, hi):
+                zq = z0 + norm_ppf(q)
+                levels.append(norm_cdf(z0 + zq / (1.0 - a * zq)))
+            ql, qh = np.quantile(reps, levels)
+            return Interval(float(ql), float(qh), c, "bootstrap-bca")
+        raise ValueError(f"method must be 'percentile' or 'bca', got {method!r}")
+
+    def p_value_below(self, value: float) -> float:
+        """Bootstrap one-sided p of H0: true >= ``value`` against H1: true < ``value``.
+
+        ``(1 + #{replicates >= value}) / (B + 1)``: the smallest one-sided level at which the
+        percentile upper bound falls below ``value``, kept off 0 by one replicate's worth.
+        """
+        v = check_finite(value, name="value")
+        return (1.0 + np.count_nonzero(self.replicates >= v)) / (self.replicates.size + 1.0)
+
+    def p_value_above(self, value: float) -> float:
+        """Bootstrap one-sided p of H0: true <= ``value`` against H1: true > ``value``."""
+        v = check_finite(value, name="value")
+        return (1.0 + np.count_nonzero(self.replicates <= v)) / (self.replicates.size + 1.0)
+
+
+@dataclass(frozen=True, eq=False)
+class PairedBootstrapResult:
+    """A statistic on two models over the same bootstrap replicates, and their difference.
+
+    Attributes
+    ----------
+    estimate_a, estimate_b : float
+        The statistic for model a (the candidate) and model b (the baseline).
+    delta : float
+        ``estimate_a - estimate_b``.
+    replicates_a, replicates_b : (B,) ndarray
+        The statistic on each replicate; replicate ``i`` resamples the same examples for both.
+    se_delta : float
+        Bootstrap standard error of the difference.
+    confidence : float
+        Default confidence level of the intervals.
+    """
+
+    estimate_a: float
+    estimate_b: float
+    delta: float
+    replicates_a: NDArray[np.float64]
+    replicates_b: NDArray[np.float64]
+    se_delta: float
+    confidence: float
+    _a: BootstrapResult = field(repr=False)
+    _b: BootstrapResult = field(repr=False)
+    _d: BootstrapResult = field(repr=False)
+
+    @property
+    def replicates_delta(self) -> NDArray[np.float64]:
+        return self._d.replicates
+
+    def delta_interval(self, *, method: Method = "percentile", confidence: float | None = None) -> Interval:
+        """Interval for ``delta`` (see :meth:`BootstrapResult.interval`)."""
+        return self._d.interval(method=method, confidence=confidence)
+
+    def interval_a(self, *, method: Method = "percentile", confidence: float | None = None) -> Interval:
+        """Interval for model a's statistic."""
+        return self._a.interval(method=method, confidence=confidence)
+
+    def interval_b(self, *, method: Method = "percentile", confidence: float | None = None) -> Interval:
+        """Interval for model b's statistic."""
+        return self._b.interval(method=method, confidence=confidence)
+
+    def p_value_below(self, margin: float) -> float:
+        """One-sided p of H0: delta >= -margin against H1: delta < -margin (a drop beyond the margin)."""
+        return self._d.p_value_below(-check_finite(margin, name="margin"))
+
+    def p_value_above(self, margin: float) -> float:
+        """One-sided p of H0: delta <= -margin against H1: delta > -margin (non-inferior within it)."""
+        return self._d.p_value_above(-check_finite(margin, name="margin"))
+
+
+def bootstrap(
+    ranking: Ranking,
+    statistic: Statistic,
+    *,
+    resamples: int = 2000,
+    seed: int = 0,
+    confidence: float = 0.95,
+    stratified: bool = True,
+    chunk_size: int | None = None,
+    progress: Progress | None = None,
+) -> BootstrapResult:
+    """Bootstrap distribution of a tie-block statistic of one model.
+
+    Parameters
+    ----------
+    ranking : Ranking
+        The model's scores, sorted once by :func:`gate.ranking.rank` (weights, if any, included).
+    statistic : callable
+        ``statistic(blocks) -> (B,)`` on batched :class:`~gate.ranking.TieBlocks` with ``pos`` and
+        ``neg`` of shape ``(B, k)``; e.g. ``gate.ranking.average_precision`` or
+        ``lambda b: recall_at_fpr_values(b, fpr=0.01)``.
+    resamples : int, default 2000
+        Number of bootstrap replicates ``B`` (at least 2).
+    seed : int, default 0
+        Seed of the ``numpy.random.Generator``; equal seeds give equal replicates.
+    confidence : float, default 0.95
+        Default level of :meth:`BootstrapResult.interval`.
+    stratified : bool, default True
+        Resample positives and negatives separately, keeping both class counts (recommended: a
+        replicate always has both classes and the prevalence of the data). False resamples all
+        examples together.
+    chunk_size : int, optional
+        Replicates handed to the statistic at once; default keeps each ``(chunk, k)`` array near
+        16 MiB. Results do not depend on it.
+    progress : callable, optional
+        ``progress(done, total)`` after each chunk (the library never prints).
+
+    Returns
+    -------
+    BootstrapResult
+        ``estimate``, ``replicates``, ``se``; ``.interval(method="percentile" | "bca")``.
+
+    Raises
+    ------
+    UndefinedMetricError
+        When the statistic is undefined on the data or on a replicate (e.g. an unstratified
+        replicate without positives), or returns a non-finite value.
+    ValueError
+        For invalid arguments, or a statistic that does not return one value per replicate.
+
+    Notes
+    -----
+    Replicate counts: for each replicate, ``m`` indices drawn uniformly with replacement among the
+    ``m`` positives and ``n`` among the ``n`` negatives (stratified), or ``m + n`` among all
+    examples; an example's count times its table weight is its replicate weight. Replicate tie
+    blocks are weighted ``bincount`` sums over the examples' blocks: O(n) per replicate, no sort.
+
+    BCa acceleration is estimated by a jackknife: delete-one when there are at most 200
+    examples; otherwise a grouped (delete-one-group) jackknife over 200 groups, formed by
+    shuffling each class (with a generator seeded from ``seed``) and dealing its examples in turn
+    to the groups, so every group keeps the class mix. Deleting a group sets its weights to 0,
+    which leaves the tie blocks as they are (blocks may become empty). The bias correction is
+    ``z0 = Phi^-1((#{replicates < estimate} + #{replicates = estimate} / 2) / B)``.
+
+    References
+    ----------
+    Efron B, Tibshirani RJ (1993). An Introduction to the Bootstrap. Chapman & Hall (ch. 13-14:
+    percentile and BCa intervals; the jackknife estimate of the acceleration).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from gate.ranking import rank, roc_auc
+    >>> r = rank(np.array([0.9, 0.8, 0.7, 0.6, 0.5, 0.4]), np.array([1, 1, 0, 1, 0, 0], dtype=bool))
+    >>> res = bootstrap(r, roc_auc, resamples=200, seed=1)
+    >>> round(res.estimate, 4), bool(0.0 <= res.interval().low <= res.estimate)
+    (0.8889, True)
+    """
+    b_count, chunk_c = _check_options(resamples, seed, confidence, chunk_size)
+    engine = _Engine([ranking], stratified=stratified)
+    (est,) = engine.estimates(statistic)
+    (reps,) = engine.run(statistic, b_count, seed, chunk_c, progress)
+
+    cache: dict[str, NDArray[np.float64]] = {}
+
+    def jackknife() -> NDArray[np.float64]:
+        if "j" not in cache:
+            (cache["j"],) = engine.jackknife(statistic, seed, chunk_c)
+        return cache["j"]
+
+    return BootstrapResult(est, reps, _sd(reps), float(confidence), jackknife)
+
+
+def paired_bootstrap(
+    a: Ranking,
+    b: Ranking,
+    statistic: Statistic,
+    *,
+    resamples: int = 2000,
+    seed: int = 0,
+    confidence: float = 0.95,
+    stratified: bool = True,
+    chunk_size: int | None = None,
+    progress: Progress | None = None,
+) -> PairedBootstrapResult:
+    """Paired bootstrap of a tie-block statistic for two models scored on the same examples.
+
+    Parameters
+    ----------
+    a, b : Ranking
+        The candidate's and the baseline's rankings of the same examples in the same original
+        order, with the same labels. Each keeps its own table weights.
+    statistic, resamples, seed, confidence, stratified, chunk_size, progress
+        As in :func:`bootstrap`.
+
+    Returns
+    -------
+    PairedBootstrapResult
+        Both estimates, ``delta = a - b``, the replicates, ``se_delta``; ``.delta_interval()``,
+        ``.interval_a()``, ``.interval_b()``, ``.p_value_below(margin)``, ``.p_value_above(margin)``.
+
+    Raises
+    ------
+    UndefinedMetricError
+        When the rankings do not cover the same examples with the same labels, or as in
+        :func:`bootstrap`.
+
+    Notes
+    -----
+    Replicate ``i`` draws one count vector and applies it to both rankings, so the difference's
+    replicates keep the correlation between the models (identical models give a difference of 0
+    in every replicate). The draws are those :func:`bootstrap` makes for ``a`` with the same seed.
+    The BCa acceleration of the difference uses the jackknife of the difference over the same
+    example groups.
+
+    References
+    ----------
+    Efron B, Tibshirani RJ (1993). An Introduction to the Bootstrap. Chapman & Hall.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from gate.ranking import rank, roc_auc
+    >>> y = np.array([1, 1, 0, 1, 0, 0], dtype=bool)
+    >>> r = rank(np.array([0.9, 0.8, 0.7, 0.6, 0.5, 0.4]), y)
+    >>> res = paired_bootstrap(r, r, roc_auc, resamples=100)
+    >>> res.delta, res.delta_interval().as_list()
+    (0.0, [0.0, 0.0])
+    """
+    b_count, chunk_c = _check_options(resamples, seed, confidence, chunk_size)
+    check_same_examples(a, b)
+    engine = _Engine([a, b], stratified=stratified)
+    est_a, est_b = engine.estimates(statistic)
+    reps_a, reps_b = engine.run(statistic, b_count, seed, chunk_c, progress)
+    reps_d = reps_a - reps_b
+
+    cache: dict[str, list[NDArray[np.float64]]] = {}
+
+    def jk(i: int) -> Callable[[], NDArray[np.float64]]:
+        def get() -> NDArray[np.float64]:
+            if "j" not in cache:
+                cache["j"] = engine.jackknife(statistic, seed, chunk_c)
+            ja, jb = cache["j"]
+            return (ja, jb, ja - jb)[i]
+
+        return get
+
+    conf = float(confidence)
+    res_a = BootstrapResult(est_a, reps_a, _sd(reps_a), conf, jk(0))
+    res_b = BootstrapResult(est_b, reps_b, _sd(reps_b), conf, jk(1))
+    res_d = BootstrapResult(est_a - est_b, reps_d, _sd(reps_d), conf, jk(2))
+    return PairedBootstrapResult(
+        estimate_a=est_a,
+        estimate_b=est_b,
+        delta=est_a - est_b,
+        replicates_a=reps_a,
+        replicates_b=reps_b,
+        se_delta=res_d.se,
+        confidence=conf,
+        _a=res_a,
+        _b=res_b,
+        _d=res_d,
+    )
+
+
+def replicate_counts(
+    ranking: Ranking, *, resamples: int, seed: int = 0, stratified: bool = True
+) -> NDArray[np.int64]:
+    """The resampling counts of each replicate, ``(resamples, n)`` in the original example order.
+
+    These are exactly the counts :func:`bootstrap` (and :func:`paired_bootstrap` with ``ranking``
+    as ``a``) uses for the same ``seed``: ``ranking.blocks(counts * weights)`` gives a replicate's
+    tie blocks. Meant for checks and small data (the array is dense).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from gate.ranking import rank
+    >>> r = rank(np.array([0.3, 0.2, 0.1]), np.array([True, False, False]))
+    >>> replicate_counts(r, resamples=2, seed=0)[:, 0].tolist()  # the one positive is always kept
+    [1, 1]
+    """
+    b_count, _ = _check_options(resamples, seed, 0.95, None)
+    engine = _Engine([ranking], stratified=stratified)
+    rng = np.random.default_rng(seed)
+    out = np.zeros((b_count, ranking.n), dtype=np.int64)
+    ex_pos = ranking.order[engine.pos_sorted]
+    ex_neg = ranking.order[engine.neg_sorted]
+    for i in range(b_count):
+        cp, cn = engine.draw(rng)
+        out[i, ex_pos] = cp
+        out[i, ex_neg] = cn
+    return out
+
+
+# --- the engine ------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, eq=False)
+class _Model:
+    thresholds: NDArray[np.float64]
+    k: int
+    block_pos: NDArray[np.intp]  # tie block of each positive, positives listed in the reference order
+    block_neg: NDArray[np.intp]
+    weight_pos: NDArray[np.float64] | None  # table weights of those positives; None when all 1
+    weight_neg: NDArray[np.float64] | None
+
+
+class _Engine:
+    """Precomputed block indices of one or more rankings of the same examples.
+
+    The examples are listed in the first ranking's sorted order (the reference), split by class;
+    a replicate is a pair of count vectors over that listing.
+    """
+
+    def __init__(self, rankings: Sequence[Ranking], *, stratified: bool) -> None:
+        ref = rankings[0]
+        self.stratified = bool(stratified)
+        labels = ref.labels_sorted
+        self.pos_sorted = np.flatnonzero(labels)
+        self.neg_sorted = np.flatnonzero(~labels)
+        self.m = int(self.pos_sorted.size)
+        self.n_neg = int(self.neg_sorted.size)
+        if self.m == 0 or self.n_neg == 0:
+            raise UndefinedMetricError(
+                f"bootstrap needs both classes, got {self.m} positives and {self.n_neg} negatives"
+            )
+        ex_pos = ref.order[self.pos_sorted]
+        ex_neg = ref.order[self.neg_sorted]
+        self.models: list[_Model] = []
+        for r in rankings:
+            if r is ref:
+                block_sorted = np.repeat(np.arange(r.starts.size), np.diff(r.starts, append=r.n))
+                bp, bn = block_sorted[self.pos_sorted], block_sorted[self.neg_sorted]
+                wp, wn = r.weights_sorted[self.pos_sorted], r.weights_sorted[self.neg_sorted]
+            else:
+                bp, bn = r.block_of[ex_pos], r.block_of[ex_neg]
+                w = np.empty(r.n, dtype=np.float64)
+                w[r.order] = r.weights_sorted
+                wp, wn = w[ex_pos], w[ex_neg]
+            unit = bool(np.all(wp == 1.0) and np.all(wn == 1.0))
+            self.models.append(
+                _Model(r.thresholds, int(r.starts.size), bp, bn, None if unit else wp, None if unit else wn)
+            )
+
+    def draw(self, rng: np.random.Generator) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
+        """One replicate's counts for the positives and the negatives (reference listing)."""
+        m, nn = self.m, self.n_neg
+        if self.stratified:
+            cp = np.bincount(rng.integers(0, m, size=m), minlength=m)
+            cn = np.bincount(rng.integers(0, nn, size=nn), minlength=nn)
+            return cp, cn
+        # Index i < m is the i-th positive, index m + j the j-th negative.
+        c = np.bincount(rng.integers(0, m + nn, size=m + nn), minlength=m + nn)
+        return c[:m], c[m:]
+
+    def estimates(self, statistic: Statistic) -> list[float]:
+        out = []
+        for mod in self.models:
+            wp = np.ones(self.m) if mod.weight_pos is None else mod.weight_pos
+            wn = np.ones(self.n_neg) if mod.weight_neg is None else mod.weight_neg
+            pos = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
+            neg = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
+            out.append(float(_evaluate(statistic, mod.thresholds, pos[None, :], neg[None, :], "the data")[0]))
+        return out
+
+    def run(
+        self,
+        statistic: Statistic,
+        resamples: int,
+        seed: int,
+        chunk_size: int | None,
+        progress: Progress | None,
+    ) -> list[NDArray[np.float64]]:
+        rng = np.random.default_rng(seed)
+        k_max = max(mod.k for mod in self.models)
+        chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // k_max))
+        out = [np.empty(resamples, dtype=np.float64) for _ in self.models]
+        for start in range(0, resamples, chunk):
+            stop = min(resamples, start + chunk)
+            counts = [self.draw(rng) for _ in range(stop - start)]
+            for mod, res in zip(self.models, out):
+                pos = np.empty((stop - start, mod.k), dtype=np.float64)
+                neg = np.empty((stop - start, mod.k), dtype=np.float64)
+                for j, (cp, cn) in enumerate(counts):
+                    wp = cp if mod.weight_pos is None else cp * mod.weight_pos
+                    wn = cn if mod.weight_neg is None else cn * mod.weight_neg
+                    pos[j] = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
+                    neg[j] = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
+                where = f"bootstrap replicates {start + 1}-{stop}"
+                res[start:stop] = _evaluate(statistic, mod.thresholds, pos, neg, where)
+            if progress is not None:
+                progress(stop, resamples)
+        return out
+
+    def jackknife(self, statistic: Statistic, seed: int, chunk_size: int | None) -> list[NDArray[np.float64]]:
+        """Leave-one-group-out values of the statistic for every model (see bootstrap Notes)."""
+        m, nn = self.m, self.n_neg
+        total = m + nn
+        groups = min(total, _JACKKNIFE_GROUPS)
+        rng = np.random.default_rng([seed, 0x4A4B])  # a stream of its own: replicates unaffected
+        # Deal shuffled positives, then shuffled negatives, to the groups in turn.
+        gp = rng.permutation(m) % groups
+        gn = (m + rng.permutation(nn)) % groups
+        order_p = np.argsort(gp, kind="stable")
+        order_n = np.argsort(gn, kind="stable")
+        bounds_p = np.searchsorted(gp[order_p], np.arange(groups + 1))
+        bounds_n = np.searchsorted(gn[order_n], np.arange(groups + 1))
+        k_max = max(mod.k for mod in self.models)
+        chunk = chunk_size or max(1, min(groups, _CHUNK_ELEMENTS // k_max))
+        out = [np.empty(groups, dtype=np.float64) for _ in self.models]
+        for mod, res in zip(self.models, out):
+            wp = np.ones(m) if mod.weight_pos is None else mod.weight_pos
+            wn = np.ones(nn) if mod.weight_neg is None else mod.weight_neg
+            full_pos = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
+            full_neg = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
+            for start in range(0, groups, chunk):
+                stop = min(groups, start + chunk)
+                pos = np.empty((stop - start, mod.k), dtype=np.float64)
+                neg = np.empty((stop - start, mod.k), dtype=np.float64)
+                for j, g in enumerate(range(start, stop)):
+                    ip = order_p[bounds_p[g] : bounds_p[g + 1]]
+                    ineg = order_n[bounds_n[g] : bounds_n[g + 1]]
+                    # Rounding in the subtraction can leave -1e-17 where a block is emptied.
+                    pos[j] = np.maximum(full_pos - np.bincount(mod.block_pos[ip], wp[ip], mod.k), 0.0)
+                    neg[j] = np.maximum(full_neg - np.bincount(mod.block_neg[ineg], wn[ineg], mod.k), 0.0)
+                where = f"jackknife groups {start + 1}-{stop}"
+                res[start:stop] = _evaluate(statistic, mod.thresholds, pos, neg, where)
+        return out
+
+
+def _evaluate(
+    statistic: Statistic,
+    thresholds: NDArray[np.float64],
+    pos: NDArray[np.float64],
+    neg: NDArray[np.float64],
+    where: str,
+) -> NDArray[np.float64]:
+    try:
+        values = statistic(TieBlocks(thresholds, pos, neg))
+    except UndefinedMetricError as exc:
+        raise UndefinedMetricError(f"{where}: {exc}") from None
+    arr = np.asarray(values, dtype=np.float64).reshape(-1)
+    if arr.shape != (pos.shape[0],):
+        raise ValueError(
+            f"statistic must return one value per replicate: expected {pos.shape[0]}, got shape "
+            f"{np.shape(values)}"
+        )
+    if not np.all(np.isfinite(arr)):
+        raise UndefinedMetricError(f"{where}: the statistic is not finite ({arr[~np.isfinite(arr)][0]})")
+    return arr
+
+
+def _check_options(
+    resamples: int, seed: int, confidence: float, chunk_size: int | None
+) -> tuple[int, int | None]:
+    if isinstance(resamples, bool) or not isinstance(resamples, (int, np.integer)) or resamples < 2:
+        raise ValueError(f"resamples must be an integer >= 2, got {resamples!r}")
+    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+        raise ValueError(f"seed must be a non-negative integer, got {seed!r}")
+    check_confidence(confidence)
+    if chunk_size is not None and (
+        isinstance(chunk_size, bool) or not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1
+    ):
+        raise ValueError(f"chunk_size must be a positive integer or None, got {chunk_size!r}")
+    return int(resamples), None if chunk_size is None else int(chunk_size)
+
+
+def _sd(x: NDArray[np.float64]) -> float:
+    return float(np.std(x, ddof=1)) if x.size > 1 else 0.0
+
