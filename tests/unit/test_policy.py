@@ -118,6 +118,17 @@ def test_starter_mentions_every_key() -> None:
             assert re.search(rf"\b{key}\b", text), (model.__name__, key)
 
 
+def test_reference_doc_describes_every_key_and_its_example_parses() -> None:
+    doc = (REPO / "docs" / "policy.md").read_text(encoding="utf-8")
+    for model in (DataSection, StatsSection, BaselineSection, WatchSection, Check):
+        for key in model.model_fields:
+            assert f"`{key}`" in doc, (model.__name__, key)
+    for metric in METRICS:
+        assert f"`{metric}`" in doc, metric
+    example = doc.split("```toml\n", 1)[1].split("```", 1)[0]
+    assert parse_policy(example).checks[0].name == "leaks found at 5% false alarms"
+
+
 def test_leak_watch_policy_shape() -> None:
     policy = load_policy(REPO / "policies" / "leak-watch.toml")
     by_metric = {(c.metric, c.by): c for c in policy.checks}
