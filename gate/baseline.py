@@ -210,6 +210,10 @@ def adopt(
     path = Path(directory)
     created = _created_utc(now)
     _check_table_for_adoption(table, where)
+    if note is not None and not _is_utf8(note):
+        raise BaselineError(f"{where}: the note is not valid UTF-8 text: {_short(note)}")
+    # A file name undecodable in the locale keeps its stray bytes as escapes, not as surrogates.
+    source = (PurePath(table.source).name or table.source).encode("utf-8", "backslashreplace").decode()
     fp = fingerprint(table)
     _ensure_directory(path, where)
 
@@ -231,7 +235,7 @@ def adopt(
             scores_file=scores_name,
             scores_sha256=digest,
             note=note,
-            source=PurePath(table.source).name or table.source,
+            source=source,
         )
         text = json.dumps(manifest.to_json(), indent=2, ensure_ascii=False) + "\n"
         try:
@@ -484,7 +488,8 @@ def _read_manifest(path: Path, where: str) -> Manifest:
             raise bad(f"key {key!r} must be 64 lowercase hex digits, got {_short(data[key])}")
     # The file name is joined to the directory: anything but our own pattern (a path, "..") is refused.
     if not _SCORES_RE.fullmatch(data["scores_file"]):
-        raise bad(f"key 'scores_file' must be like scores-<16 hex>.parquet, got {_short(data['scores_file'])}")
+        got = _short(data["scores_file"])
+        raise bad(f"key 'scores_file' must be like scores-<16 hex>.parquet, got {got}")
     if data["scores_file"] != f"scores-{data['scores_sha256'][:16]}.parquet":
         raise bad("key 'scores_file' does not match key 'scores_sha256'")
     n, n_pos, n_neg = data["n"], data["n_positive"], data["n_negative"]
@@ -709,7 +714,10 @@ def align(
     else:
         cand = take(candidate, cand_index)
         base = take(baseline, base_index)
-        note = f"paired on the {n_common} ids common to candidate and baseline with the same label; left out {described}"
+        note = (
+            f"paired on the {n_common} ids common to candidate and baseline with the same label; "
+            f"left out {described}"
+        )
     return Alignment(
         candidate=cand,
         baseline=base,
@@ -724,6 +732,14 @@ def align(
 
 
 # --- small helpers -----------------------------------------------------------------------------
+
+
+def _is_utf8(text: str) -> bool:
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return False
+    return True
 
 
 def _quote_list(items: tuple[str, ...] | list[str]) -> str:

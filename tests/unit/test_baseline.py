@@ -667,3 +667,13 @@ def test_load_waits_while_adopt_holds_the_lock(tmp_path: Path) -> None:
         os.close(fd)
     thread.join(timeout=30)
     assert done.is_set()
+
+
+def test_note_and_source_must_be_storable_text(tmp_path: Path) -> None:
+    # A command-line argument that is not valid UTF-8 reaches Python as lone surrogates.
+    with pytest.raises(BaselineError, match=r"the note is not valid UTF-8 text"):
+        adopt(make_table(), tmp_path, note="bad \udcff byte")
+    table = make_table(source="/ci/cand-\udcff.csv")
+    manifest = adopt(table, tmp_path, note="ünïcode ok")
+    assert manifest.source == "cand-\\udcff.csv"
+    assert load_baseline(tmp_path).manifest.note == "ünïcode ok"
