@@ -150,6 +150,8 @@ def _show(value: Any) -> str:
         text = "a table"
     elif isinstance(value, list):
         text = "an array"
+    elif isinstance(value, _dt.datetime | _dt.date | _dt.time):
+        text = value.isoformat()
     else:
         text = repr(value)
     if len(text) > 60:
@@ -167,8 +169,7 @@ def _got(value: Any) -> str:
 
 def _num(x: float) -> str:
     """Format a number for messages and default names: 0.05 -> '0.05', 10.0 -> '10'."""
-    text = format(float(x), ".12g")
-    return text
+    return format(float(x), ".12g")
 
 
 def _suggest(word: str, options: list[str] | tuple[str, ...]) -> str | None:
