@@ -6,6 +6,12 @@ candidate - baseline, recall values are k / n_pos for the stated positive counts
 Decision's outcome follows from its interval and bound as DESIGN.md's decision rule says.
 They exercise the renderers; they are not check values for any statistic.
 
+The warnings follow the evaluate layer's shape: a check's own warnings (e.g. a margin below the
+resolution) sit in ``CheckResult.warnings``, and ``Result.warnings`` lists every warning of the
+run, each check's as ``name [column = value]: text``, plus the inconclusive and skipped notices
+and the mismatch handling. (``hostile_result`` leaves its check warnings unlisted on purpose,
+the other shape a producer may use.)
+
 Import as ``from tests.fixtures_results import leak_gate_result`` (the repository root is on
 ``sys.path`` under ``python -m pytest``).
 """
@@ -69,6 +75,12 @@ def _recall_slice(
     value_ci = ci(*interval, "bootstrap-percentile")
     delta_ci = ci(*delta_interval, "bootstrap-percentile")
     delta = value - baseline
+    warnings = ()
+    if delta_ci.half_width > 0.05:
+        warnings = (
+            f"max_drop = 0.05 is below what this evaluation set can resolve "
+            f"(difference interval half-width {delta_ci.half_width:.4f})",
+        )
     return CheckResult(
         name="recall at 1% FPR",
         metric="recall_at_fpr",
@@ -89,6 +101,7 @@ def _recall_slice(
         method="bootstrap-percentile",
         threshold=threshold,
         reason=reason,
+        warnings=warnings,
     )
 
 
@@ -126,7 +139,7 @@ def recall_by_district() -> list[CheckResult]:
         n_pos=11,
         n_neg=889,
         method="bootstrap-percentile",
-        reason="11 positives, fewer than min_positives = 30",
+        reason="skipped: 11 positives, fewer than min_positives = 30",
     )
     return [north, south, east, west]
 
@@ -179,6 +192,30 @@ def expected_cost_check() -> CheckResult:
     )
 
 
+MISMATCH_NOTE = "on_mismatch = intersect: 10000 ids compared, 3 candidate ids without a baseline score left out"
+LEAK_METHODS = (
+    "95% two-sided intervals; DeLong (paired DeLong for differences); stratified bootstrap, "
+    "percentile (paired for differences), 2000 resamples, seed 20240611; inconclusive checks "
+    "decided by the point estimate; no multiplicity adjustment"
+)
+
+
+def run_warnings(checks: tuple[CheckResult, ...], *, first: tuple[str, ...] = ()) -> tuple[str, ...]:
+    """The run's warning list as the evaluate layer writes it."""
+    out = list(first)
+    for check in checks:
+        where = check.name if check.slice is None else f"{check.name} [{check.slice.column} = {check.slice.value}]"
+        if check.outcome == "inconclusive":
+            out.append(
+                f"{where}: inconclusive (the interval straddles the bound); the evaluation set is too "
+                f"small to be sure, {'passed' if check.passed else 'failed'} by the 'estimate' rule"
+            )
+        elif check.outcome == "skipped":
+            out.append(f"{where}: {check.reason}")
+        out.extend(f"{where}: {w}" for w in check.warnings)
+    return tuple(out)
+
+
 def leak_gate_result() -> Result:
     """A failing run with every kind of row: pass, inconclusive, fail, skipped, floor-only."""
     checks = (overall_auc(), *recall_by_district(), floor_only_ap(), expected_cost_check())
@@ -198,17 +235,18 @@ def leak_gate_result() -> Result:
         n=10000,
         n_pos=151,
         n_neg=9849,
-        warnings=("3 candidate ids without a baseline score were left out (on_mismatch = intersect)",),
-        methods="",
+        warnings=run_warnings(checks, first=(MISMATCH_NOTE,)),
+        methods=LEAK_METHODS,
         notes={
-            "baseline note": "production model adopted after the spring survey",
-            "mismatch": "intersect: 10000 ids compared, 3 dropped",
+            "baseline_note": "production model adopted after the spring survey",
+            "mismatch": MISMATCH_NOTE,
         },
     )
 
 
 def passing_result() -> Result:
-    """A passing run without a baseline: floor-only checks, methods line given by evaluate."""
+    """A passing run without a baseline: one floor-only check; no methods line given, so the
+    report builds its own."""
     checks = (floor_only_ap(),)
     return Result(
         verdict="pass",
@@ -226,7 +264,6 @@ def passing_result() -> Result:
         n=10000,
         n_pos=151,
         n_neg=9849,
-        methods="average_precision: bootstrap-percentile; confidence 95%; 2000 resamples; seed 7",
     )
 
 

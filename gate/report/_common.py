@@ -111,64 +111,44 @@ def rule_text(on_inconclusive: str, passed: bool) -> str:
     return "counted as a pass by the policy" if passed else "counted as a failure by the policy"
 
 
-def _finite(x: float | None) -> bool:
-    return x is not None and math.isfinite(float(x))
-
-
-def resolution_gap(check: CheckResult) -> float | None:
-    """The difference interval's half-width when it exceeds the margin, else None.
-
-    Such a margin is below the resolution of the evaluation set: even with no true change the
-    difference interval would usually straddle it.
-    """
-    margin = check.margin
-    if margin is None or not (_finite(margin.interval.low) and _finite(margin.interval.high)):
-        return None
-    half = margin.interval.half_width
-    return half if half > float(margin.bound.value) else None
-
-
-def resolution_text(check: CheckResult, half: float) -> str:
-    assert check.margin is not None
-    return (
-        f"margin {fmt_exact(check.margin.bound.value)} is below the resolution {fmt_value(half)} "
-        "of this evaluation set (half-width of the difference interval)"
+def inconclusive_note(check: CheckResult, result: Result) -> str:
+    """The warning an inconclusive check carries: the interval straddles a bound, and how it was resolved."""
+    straddled = [bound_text(d.bound) for d in decisions(check) if d.outcome == "inconclusive"]
+    what = f" ({'; '.join(straddled)})" if straddled else ""
+    text = (
+        f"inconclusive: the {fmt_percent(result.confidence)} interval straddles the bound{what}; "
+        f"{rule_text(result.on_inconclusive, check.passed)}"
     )
+    if result.on_inconclusive == "estimate":
+        text += "; the evaluation set is too small to be sure"
+    return text
 
 
-def derived_warnings(check: CheckResult, result: Result, *, resolution: bool = True) -> list[str]:
-    """Warnings implied by the structured fields of one check and slice.
+def flattened(check: CheckResult, warning: str) -> str:
+    """A check's warning as it reads in the run's list: ``label: warning``."""
+    return f"{check_label(check)}: {warning}"
 
-    - inconclusive: the interval straddles a bound; says how the policy resolved it;
-    - skipped: the slice was not judged, with the reason;
-    - margin below resolution (unless ``resolution=False``): see :func:`resolution_gap`.
+
+def run_warnings(result: Result) -> list[str]:
+    """Every warning of the run, once: the Result's own list, then any check warning not in it.
+
+    The evaluate layer lists each check's warnings in ``Result.warnings`` as ``label: text``
+    (and adds the inconclusive and skipped notices there); a check warning already present in
+    that form is not repeated, so results built either way render without duplicates.
     """
-    out: list[str] = []
-    if check.outcome == "inconclusive":
-        straddled = [bound_text(d.bound) for d in decisions(check) if d.outcome == "inconclusive"]
-        what = f" ({'; '.join(straddled)})" if straddled else ""
-        text = (
-            f"inconclusive: the {fmt_percent(result.confidence)} interval straddles the bound{what}; "
-            f"{rule_text(result.on_inconclusive, check.passed)}"
-        )
-        if result.on_inconclusive == "estimate":
-            text += "; the evaluation set is too small to be sure"
-        out.append(text)
-    elif check.outcome == "skipped":
-        out.append(f"skipped: {check.reason}" if check.reason else "skipped: not judged")
-    if resolution:
-        half = resolution_gap(check)
-        if half is not None:
-            out.append(resolution_text(check, half))
+    out = unique(result.warnings)
+    present = set(out)
+    for check in result.checks:
+        for warning in check.warnings:
+            line = flattened(check, warning)
+            if line not in present:
+                present.add(line)
+                out.append(line)
     return out
 
 
-def check_warnings(check: CheckResult, result: Result, *, resolution: bool = True) -> list[str]:
-    """Derived warnings, then the evaluate layer's own, without exact repeats."""
-    return _unique([*derived_warnings(check, result, resolution=resolution), *check.warnings])
-
-
-def _unique(items: Iterable[str]) -> list[str]:
+def unique(items: Iterable[str]) -> list[str]:
+    """Items in order with exact repeats dropped."""
     seen: set[str] = set()
     out = []
     for item in items:
@@ -176,6 +156,12 @@ def _unique(items: Iterable[str]) -> list[str]:
             seen.add(item)
             out.append(item)
     return out
+
+
+def notes_shown(result: Result) -> list[tuple[str, str]]:
+    """Notes sorted by key, leaving out a note whose text is already one of the run's warnings."""
+    warned = set(result.warnings)
+    return [(k, v) for k, v in sorted(result.notes.items()) if v not in warned]
 
 
 @dataclass(frozen=True)
@@ -205,24 +191,28 @@ def counts(result: Result) -> Counts:
     )
 
 
-def methods_line(result: Result) -> str:
-    """One line stating methods, confidence level, resamples and seed.
+def settings_text(result: Result) -> str:
+    """``confidence 95%, 2000 resamples, seed 7``: what any rerun needs to reproduce the numbers."""
+    return f"confidence {fmt_percent(result.confidence)}, {result.resamples} resamples, seed {result.seed}"
 
-    The evaluate layer's ``Result.methods`` when it gave one; otherwise built from the checks'
-    ``method`` fields (per metric, in order of first appearance) and the run settings.
+
+def methods_line(result: Result) -> str:
+    """One line stating the methods, confidence level, resamples and seed.
+
+    The evaluate layer's ``Result.methods`` (or, when that is empty, the checks' ``method``
+    fields per metric with the inconclusive rule and the multiplicity adjustment), followed by
+    :func:`settings_text`, so the settings are stated whatever the producer wrote.
     """
-    if result.methods.strip():
-        return result.methods
-    per_metric: dict[str, list[str]] = {}
-    for check in result.checks:
-        if check.method:
-            methods = per_metric.setdefault(check.metric, [])
-            if check.method not in methods:
-                methods.append(check.method)
-    listed = "; ".join(f"{metric}: {', '.join(ms)}" for metric, ms in per_metric.items())
-    parts = [listed] if listed else []
-    parts.append(f"confidence {fmt_percent(result.confidence)}")
-    parts.append(f"{result.resamples} bootstrap resamples, seed {result.seed}")
-    parts.append(f"inconclusive rule: {result.on_inconclusive}")
-    parts.append(f"multiplicity adjustment: {result.adjust}")
-    return "; ".join(parts)
+    methods = result.methods.strip().rstrip(".")
+    if not methods:
+        per_metric: dict[str, list[str]] = {}
+        for check in result.checks:
+            if check.method:
+                names = per_metric.setdefault(check.metric, [])
+                if check.method not in names:
+                    names.append(check.method)
+        parts = [f"{metric}: {', '.join(names)}" for metric, names in per_metric.items()]
+        parts.append(f"inconclusive rule: {result.on_inconclusive}")
+        parts.append(f"multiplicity adjustment: {result.adjust}")
+        methods = "; ".join(parts)
+    return f"{methods}. Settings: {settings_text(result)}"

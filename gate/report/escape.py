@@ -63,17 +63,16 @@ def one_line(text: str) -> str:
     return "".join(out)
 
 
-# Characters escaped wherever they occur. CommonMark lets any ASCII punctuation be
-# backslash-escaped; these are the ones that start inline syntax: \ (escapes), ` (code spans),
-# * _ (emphasis), ~ (strikethrough), [ ] (links and images), | (table cells), # (headings, and
-# kept escaped inside text so issue references are not formed), $ (math on some hosts).
-_BACKSLASHED = frozenset("\\`*_~[]|#$")
-# HTML-significant characters become entities rather than backslash escapes: the original
-# Markdown.pl does not honour ``\<``, and an entity is inert in every renderer.
-_ENTITIES = {"&": "&amp;", "<": "&lt;", ">": "&gt;"}
+# Characters backslash-escaped wherever they occur. CommonMark (GitHub, GitLab, our HTML page)
+# lets any ASCII punctuation be backslash-escaped; these are the ones that start inline syntax:
+# \ (escapes), ` (code spans), * _ (emphasis), ~ (strikethrough), [ ] (links and images),
+# | (table cells), # (headings; kept escaped inside text too), $ (math on some hosts),
+# < > (raw HTML, autolinks, block quotes) and & (entity references).
+_BACKSLASHED = frozenset("\\`*_~[]|#$<>&")
 # Block syntax that only matters at the start of a line: list bullets, setext underline,
 # ordered-list markers ("1." / "1)").
 _LEADING_MARKER = re.compile(r"^([-+=])|^([0-9]{1,9})([.)])")
+_NBSP = "\u00a0"
 
 
 def escape_markdown(text: str, *, max_length: int | None = None) -> str:
@@ -92,14 +91,16 @@ def escape_markdown(text: str, *, max_length: int | None = None) -> str:
 
     Notes
     -----
-    Invisible characters are first made visible by :func:`one_line`. Then ``\\ ` * _ ~ [ ] | # $``
-    are backslash-escaped (except ``_`` between two letters or digits, as in ``recall_at_fpr``,
-    where CommonMark cannot read it as emphasis), ``& < >`` become entities, a leading ``-``,
-    ``+``, ``=`` or ordered-list marker is escaped, and leading spaces become ``&#32;`` so they
-    cannot open an indented code block. Bare URLs may still be turned into links by hosts that autolink them;
-    the link text is then the URL itself, so nothing is hidden.
+    Invisible characters are first made visible by :func:`one_line`. Then
+    ``\\ ` * _ ~ [ ] | # $ < > &`` are backslash-escaped (except ``_`` between two letters or
+    digits, as in ``recall_at_fpr``, where CommonMark cannot read it as emphasis), a leading
+    ``-``, ``+``, ``=`` or ordered-list marker is escaped, and leading spaces become no-break
+    spaces so they cannot open an indented code block. Backslash escapes rather than HTML
+    entities, because GFM renders both alike while a renderer that shows markup as text (our HTML
+    page) would print an entity literally. Bare URLs may still be turned into links by hosts
+    that autolink them; the link text is then the URL itself, so nothing is hidden.
 
-    Example: ``escape_markdown("a|b")`` is ``a\\|b``; ``escape_markdown("<b>")`` is ``&lt;b&gt;``.
+    Example: ``escape_markdown("a|b")`` is ``a\\|b``; ``escape_markdown("<b>")`` is ``\\<b\\>``.
     """
     text = str(text)
     if max_length is not None:
@@ -115,14 +116,12 @@ def escape_markdown(text: str, *, max_length: int | None = None) -> str:
             out.append(ch)  # intraword: CommonMark never opens or closes emphasis here
         elif ch in _BACKSLASHED:
             out.append("\\" + ch)
-        elif ch in _ENTITIES:
-            out.append(_ENTITIES[ch])
         else:
             out.append(ch)
     escaped = "".join(out)
     stripped = escaped.lstrip(" ")
     if len(stripped) != len(escaped):
-        escaped = "&#32;" * (len(escaped) - len(stripped)) + stripped
+        escaped = _NBSP * (len(escaped) - len(stripped)) + stripped
     else:
         match = _LEADING_MARKER.match(escaped)
         if match is not None:

@@ -14,7 +14,8 @@ Each check: ``name``, ``metric``, ``params``, ``slice`` (null or {``column``, ``
 ``delta``, ``delta_interval`` (these three null for checks without a baseline), ``floor`` and
 ``margin`` (null or {``kind``, ``bound``, ``outcome``, ``estimate``, ``interval``, ``method``,
 ``p_value``, ``adjusted_p_value``}), ``n``, ``n_pos``, ``n_neg``, ``method``, ``threshold``,
-``reason``, ``warnings`` (the same list the markdown shows for this check and slice).
+``reason``, ``warnings`` (the check's own). The top-level ``warnings`` are the run's, as the
+markdown lists them (each check warning once, as ``label: text``); ``notes`` are all the notes.
 """
 
 from __future__ import annotations
@@ -88,7 +89,7 @@ def _check(check: CheckResult, result: Result) -> dict[str, Any]:
         "method": str(check.method),
         "threshold": _float(check.threshold),
         "reason": str(check.reason),
-        "warnings": [str(w) for w in c.check_warnings(check, result)],
+        "warnings": [str(w) for w in check.warnings],
     }
 
 
@@ -108,7 +109,7 @@ def report_dict(result: Result) -> dict[str, Any]:
             "not_passed": k.not_passed,
         },
         "checks": [_check(check, result) for check in result.checks],
-        "warnings": [str(w) for w in result.warnings],
+        "warnings": [str(w) for w in c.run_warnings(result)],
         "notes": {str(key): str(value) for key, value in sorted(result.notes.items())},
         "methods": c.methods_line(result),
         "confidence": _float(result.confidence),

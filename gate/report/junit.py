@@ -60,10 +60,10 @@ def _details(check: CheckResult, result: Result) -> list[str]:
         lines.append(f"threshold: {c.fmt_exact(check.threshold)}")
     if check.reason:
         lines.append(f"reason: {one_line(check.reason)}")
-    warnings = c.check_warnings(check, result)
-    if check.outcome == "skipped" and check.reason:  # the reason line above already says it
-        warnings = [w for w in warnings if w != f"skipped: {check.reason}"]
-    lines.extend(f"warning: {one_line(w)}" for w in warnings)
+    warnings = list(check.warnings)
+    if check.outcome == "inconclusive":
+        warnings.insert(0, c.inconclusive_note(check, result))
+    lines.extend(f"warning: {one_line(w)}" for w in c.unique(warnings))
     return lines
 
 
@@ -134,7 +134,7 @@ def render_junit(result: Result) -> str:
     for check in result.checks:
         _testcase(suite, check, result)
     summary = [f"verdict: {result.verdict}", f"methods: {one_line(c.methods_line(result))}"]
-    summary.extend(f"warning: {one_line(w)}" for w in result.warnings)
+    summary.extend(f"warning: {one_line(w)}" for w in c.run_warnings(result))
     summary.extend(f"note: {one_line(k)}: {one_line(v)}" for k, v in sorted(result.notes.items()))
     ET.SubElement(suite, "system-out").text = xml_safe("\n".join(summary))
     ET.indent(root, space="  ")

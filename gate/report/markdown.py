@@ -2,8 +2,9 @@
 
 Layout: a heading with the verdict, one line of counts, one line naming the inputs, a table
 with one row per check and slice, then (when there are any) the failures with their reasons,
-the warnings and the notes, and last the methods line and the policy. Every piece of
-untrusted text goes through :func:`gate.report.escape.escape_markdown`.
+the run's warnings (inconclusive checks, skipped slices, margins below resolution, mismatch
+handling: as the evaluate layer wrote them) and notes, and last the methods line and the
+policy. Every piece of untrusted text goes through :func:`gate.report.escape.escape_markdown`.
 """
 
 from __future__ import annotations
@@ -113,29 +114,6 @@ def _counts_line(result: Result) -> str:
     return f"**{result.verdict.upper()}**: {k.total} check result{plural}: {', '.join(parts)}."
 
 
-def _resolution_lines(result: Result) -> list[str]:
-    """One line per check (not per slice) whose margin is below the resolution somewhere."""
-    grouped: dict[tuple[str, float], list[tuple[CheckResult, float]]] = {}
-    for check in result.checks:
-        half = c.resolution_gap(check)
-        if half is not None and check.margin is not None:
-            grouped.setdefault((check.name, float(check.margin.bound.value)), []).append((check, half))
-    lines = []
-    for (name, margin), items in grouped.items():
-        if len(items) == 1:
-            check, half = items[0]
-            lines.append(f"{_label(check)}: {_esc(c.resolution_text(check, half))}")
-            continue
-        where = ", ".join(
-            f"{_esc(c.slice_text(check.slice), cell=True)} ({c.fmt_value(half)})" for check, half in items
-        )
-        lines.append(
-            f"{_esc(name, cell=True)}: margin {c.fmt_exact(margin)} is below the resolution of this "
-            f"evaluation set (half-width of the difference interval) in {len(items)} slices: {where}"
-        )
-    return lines
-
-
 def _inputs_line(result: Result) -> str:
     text = (
         f"Candidate {_esc(result.candidate_source)}: {result.n} rows, "
@@ -191,17 +169,10 @@ def render_markdown(result: Result, *, title: str | None = None) -> str:
     ]
     lines.extend(_section("Failed", failures))
 
-    warnings = [_esc(w) for w in result.warnings]
-    for check in result.checks:
-        label = _label(check)
-        warnings.extend(f"{label}: {_esc(w)}" for w in c.check_warnings(check, result, resolution=False))
-    warnings.extend(_resolution_lines(result))
-    lines.extend(_section("Warnings", warnings))
+    lines.extend(_section("Warnings", [_esc(w) for w in c.run_warnings(result)]))
+    lines.extend(_section("Notes", [f"{_esc(k)}: {_esc(v)}" for k, v in c.notes_shown(result)]))
 
-    notes = [f"{_esc(key)}: {_esc(value)}" for key, value in sorted(result.notes.items())]
-    lines.extend(_section("Notes", notes))
-
-    lines.append(f"Methods: {_esc(c.methods_line(result).rstrip(' .'))}.")
+    lines.append(f"Methods: {_esc(c.methods_line(result))}.")
     policy = f"Policy {_esc(result.policy_source)}"
     if result.policy_hash:
         policy += f", sha256 {_esc(result.policy_hash[:FINGERPRINT_SHOWN])}"
