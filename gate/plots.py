@@ -25,6 +25,7 @@ import re
 import tempfile
 import textwrap
 import unicodedata
+import warnings
 from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -143,9 +144,9 @@ def slugify(text: str, *, max_length: int = 60) -> str:
         raise ValueError(f"max_length must be at least 16, got {max_length}")
     folded = unicodedata.normalize("NFKD", str(text)).encode("ascii", "ignore").decode("ascii")
     slug = re.sub(r"[^a-z0-9._-]+", "-", folded.lower())
-    slug = re.sub(r"-{2,}", "-", slug).strip("-.")
-    slug = re.sub(r"\.{2,}", ".", slug)
-    if slug and slug == text and len(slug) <= max_length and slug.upper() not in _RESERVED:
+    slug = re.sub(r"\.{2,}", ".", re.sub(r"-{2,}", "-", slug))
+    slug = slug.lstrip("-._").rstrip("-.")
+    if slug and slug == text and len(slug) <= max_length and slug.split(".")[0].upper() not in _RESERVED:
         return slug
     digest = hashlib.sha256(str(text).encode("utf-8", "surrogatepass")).hexdigest()[:8]
     head = slug[: max_length - 9].rstrip("-.") or "plot"
@@ -160,16 +161,21 @@ _RESERVED = frozenset(
 
 def _plain(text: object, *, limit: int = _MAX_LABEL) -> str:
     """Untrusted text as a literal matplotlib label: one line, bounded, no mathtext."""
-    s = " ".join(str(text).split())
+    s = _printable(" ".join(str(text).split()))
     if len(s) > limit:
         s = s[: limit - 1] + "\u2026"
     # An unescaped pair of "$" would switch matplotlib to mathtext (and may raise on bad TeX).
     return s.replace("$", r"\$")
 
 
+def _printable(s: str) -> str:
+    """Control, format, surrogate and unassigned code points shown as U+FFFD, not passed to fonts."""
+    return "".join("\ufffd" if unicodedata.category(ch).startswith("C") else ch for ch in s)
+
+
 def _title(text: object) -> str:
     """A figure title: like :func:`_plain` but wrapped onto at most three lines."""
-    s = " ".join(str(text).split()) or "untitled"
+    s = _printable(" ".join(str(text).split())) or "untitled"
     lines = textwrap.wrap(s, width=90, max_lines=3, placeholder=" \u2026")
     return "\n".join(line.replace("$", r"\$") for line in lines)
 
@@ -234,7 +240,10 @@ def _check_fraction(name: str, value: float | None) -> float | None:
 @contextlib.contextmanager
 def _style() -> Iterator[Any]:
     mpl = require_matplotlib()
-    with mpl.rc_context(_RC):
+    with mpl.rc_context(_RC), warnings.catch_warnings():
+        # A name in a script the default font lacks renders as boxes; that is no reason to
+        # print a warning from a library that never prints.
+        warnings.filterwarnings("ignore", message=r"Glyph \d+ .*missing from", category=UserWarning)
         yield mpl
 
 
