@@ -12,6 +12,7 @@ from __future__ import annotations
 import functools
 import sys
 import traceback
+from pathlib import Path
 from collections.abc import Callable
 from typing import Any, TypeVar
 
@@ -77,6 +78,79 @@ def _root(
 
 
 # --- commands are registered below this line -------------------------------------------------
+
+
+# --- inspect / demo (io, summary and demo scenario) --------------------------------------------
+
+
+def _summary_of(
+    path: Path,
+    spec: Any,
+    *,
+    cost_fp: float,
+    cost_fn: float,
+) -> dict[str, Any]:
+    """Read one table and summarize it; option mistakes become GateErrors (exit 2)."""
+    import math
+
+    from gate.io import read_table
+    from gate.summary import summarize
+
+    for option, value in (("--cost-fp", cost_fp), ("--cost-fn", cost_fn)):
+        if not math.isfinite(value) or value < 0:
+            raise GateError(f"{option} must be a finite non-negative number, got {value:g}")
+    if cost_fp == 0 and cost_fn == 0:
+        raise GateError("--cost-fp and --cost-fn cannot both be 0")
+    table = read_table(path, spec)
+    return summarize(table, cost_fp=cost_fp, cost_fn=cost_fn)
+
+
+@app.command("inspect")
+@guarded
+def inspect_command(
+    file: Path = typer.Argument(..., help="Score table: .csv, .csv.gz, .parquet, .pq, .jsonl or .ndjson."),
+    id_col: str = typer.Option("id", "--id-col", help="Column of example ids."),
+    label_col: str = typer.Option("label", "--label-col", help="Column of true labels."),
+    score_col: str = typer.Option("score", "--score-col", help="Column of scores (higher = more likely positive)."),
+    weight_col: str | None = typer.Option(
+        None, "--weight-col", help='Column of example weights (default: "weight" when present, else unweighted).'
+    ),
+    positive: str = typer.Option("1", "--positive", help="Label value of the positive class."),
+    cost_fp: float = typer.Option(1.0, "--cost-fp", help="Cost of a false alarm, for the cost-optimal threshold."),
+    cost_fn: float = typer.Option(1.0, "--cost-fn", help="Cost of a missed positive, for the cost-optimal threshold."),
+    json_out: Path | None = typer.Option(None, "--json", help="Also write the summary as JSON to this file."),
+) -> None:
+    """Summarize one score table: counts, ROC AUC, average precision, operating points."""
+    import json
+
+    from gate.io import ColumnSpec
+    from gate.summary import render_summary_text
+
+    spec = ColumnSpec(id=id_col, label=label_col, score=score_col, weight=weight_col, positive=positive)
+    summary = _summary_of(file, spec, cost_fp=cost_fp, cost_fn=cost_fn)
+    if json_out is not None:
+        from gate.report.output import write_report
+
+        write_report(json_out, json.dumps(summary, indent=2, allow_nan=False) + "\n")
+    typer.echo(render_summary_text(summary), nl=False)
+
+
+@app.command("demo")
+@guarded
+def demo_command(
+    out: Path = typer.Option(Path("rankgate-demo"), "--out", help="Directory for the demo files."),
+) -> None:
+    """Generate the invented leak-scoring scenario and inspect the better candidate."""
+    from gate.demo import write_scenario
+    from gate.io import ColumnSpec
+    from gate.summary import render_summary_text
+
+    paths = write_scenario(out)
+    for path in paths.values():
+        typer.echo(f"wrote {path}")
+    typer.echo("")
+    summary = _summary_of(paths["candidate_better"], ColumnSpec(), cost_fp=1.0, cost_fn=1.0)
+    typer.echo(render_summary_text(summary), nl=False)
 
 
 def main() -> None:
