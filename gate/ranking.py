@@ -69,8 +69,9 @@ __all__ = [
 
 FloatOrArray = NDArray[np.float64] | float
 
-# Elements per chunk when building sort keys and block indices: bounds the temporaries at a few MB.
-_CHUNK = 1 << 20
+# Elements per chunk when building sort keys / block indices: small temporaries that stay in cache.
+_KEY_CHUNK = 1 << 16
+_BLOCK_CHUNK = 1 << 18
 
 
 # ----------------------------------------------------------------------------------------------
@@ -214,8 +215,8 @@ def _order_descending(s: NDArray[np.float64], thresholds: NDArray[np.float64]) -
     if shift < 64 and bool(np.all(high[1:] > high[:-1])):
         keys = np.empty(n, dtype=np.uint64)
         sh = np.uint64(shift)
-        for i in range(0, n, _CHUNK):
-            j = min(n, i + _CHUNK)
+        for i in range(0, n, _KEY_CHUNK):
+            j = min(n, i + _KEY_CHUNK)
             c = _descending_keys(np.add(s[i:j], 0.0))  # + 0.0 folds -0.0 into +0.0
             c >>= sh
             c <<= sh
@@ -227,8 +228,8 @@ def _order_descending(s: NDArray[np.float64], thresholds: NDArray[np.float64]) -
             return keys.view(np.intp)
         return keys.astype(np.intp)
     keys = np.empty(n, dtype=np.uint64)
-    for i in range(0, n, _CHUNK):
-        j = min(n, i + _CHUNK)
+    for i in range(0, n, _KEY_CHUNK):
+        j = min(n, i + _KEY_CHUNK)
         keys[i:j] = _descending_keys(np.add(s[i:j], 0.0))
     return np.argsort(keys, kind="quicksort")
 
@@ -282,14 +283,14 @@ def rank(
             raise ValueError(f"weights must have the shape of scores {s.shape}, got {w.shape}")
         bad = np.flatnonzero(~(np.isfinite(w) & (w >= 0.0)))
         if bad.size:
-            raise ValueError(f"weights must be finite and non-negative; weight[{bad[0]}] = {w[bad[0]]!r}")
+            raise ValueError(f"weights must be finite and non-negative; weight[{bad[0]}] = {float(w[bad[0]])!r}")
 
     # Distinct values from a plain sort (fast); NaN sorts last and -inf first, so the two ends
     # tell whether every score is finite.
     srt = np.sort(s)
     if not (math.isfinite(srt[0]) and math.isfinite(srt[-1])):
         bad = int(np.flatnonzero(~np.isfinite(s))[0])
-        raise ValueError(f"scores must be finite; score[{bad}] = {s[bad]!r}")
+        raise ValueError(f"scores must be finite; score[{bad}] = {float(s[bad])!r}")
     desc = srt[::-1]
     new_block = np.empty(n, dtype=bool)
     new_block[0] = True
@@ -302,9 +303,13 @@ def rank(
 
     # Block index of each example, filled chunk by chunk to avoid an (n,) temporary.
     block_of = np.empty(n, dtype=np.intp)
-    for i in range(0, n, _CHUNK):
-        j = min(n, i + _CHUNK)
-        block_of[order[i:j]] = np.searchsorted(starts, np.arange(i, j), side="right") - 1
+    ends = np.append(starts[1:], n)
+    for i in range(0, n, _BLOCK_CHUNK):
+        j = min(n, i + _BLOCK_CHUNK)
+        lo = int(np.searchsorted(starts, i, side="right")) - 1  # block holding sorted position i
+        hi = int(np.searchsorted(starts, j, side="left"))  # blocks starting before j
+        sizes = np.minimum(ends[lo:hi], j) - np.maximum(starts[lo:hi], i)
+        block_of[order[i:j]] = np.repeat(np.arange(lo, hi), sizes)
 
     if weights is None:
         w_sorted = np.broadcast_to(np.float64(1.0), (n,))
