@@ -49,6 +49,7 @@ __all__ = [
     "plot_pr",
     "plot_roc",
     "plot_trend",
+    "trend_points",
     "require_matplotlib",
     "slugify",
 ]
@@ -114,8 +115,9 @@ class TrendPoint:
     label : the run's name on the x axis (a date, a commit, a run number).
     value : the check's value in that run; None when the run has no value (skipped).
     low, high : the reported interval, or None when the run has none.
-    alarm : None, or the kind of alarm raised at this run (e.g. "bound", "cusum"); each kind gets
-        its own marker and legend entry. A kind containing "cusum" is also annotated on the chart.
+    alarm : None, or the kind of alarm raised at this run (e.g. "bound", "drift"); each kind gets
+        its own marker and legend entry. A drift alarm (a kind starting with "drift" or containing
+        "cusum") is also annotated on the chart where it fires.
     """
 
     label: str
@@ -558,6 +560,7 @@ def plot_trend(
     formats: Iterable[str] = FORMATS,
     bound: float | Bound | None = None,
     ylabel: str = "value",
+    reference: float | None = None,
 ) -> list[Path]:
     """One check over successive runs: value with interval bars, the bound, alarms marked.
 
@@ -571,6 +574,8 @@ def plot_trend(
         ``max_drop`` / ``max_rise`` the series is taken to be the delta against the baseline and
         the line sits at ``-value`` / ``+value``).
     ylabel : y-axis label (e.g. the metric name).
+    reference : the level the drift statistic measures against (the CUSUM reference mean),
+        drawn as a dotted line when given.
 
     Returns
     -------
@@ -585,7 +590,7 @@ def plot_trend(
         bound or format, or the file cannot be written.
     """
     with _style():
-        fig = _trend_figure(series, title=title, bound=bound, ylabel=ylabel)
+        fig = _trend_figure(series, title=title, bound=bound, ylabel=ylabel, reference=reference)
         return _save(fig, path, _check_formats(formats))
 
 
@@ -635,7 +640,12 @@ def _bound_line(bound: float | Bound | None) -> tuple[float, str] | None:
 
 
 def _trend_figure(
-    series: Sequence[TrendPoint], *, title: str, bound: float | Bound | None, ylabel: str
+    series: Sequence[TrendPoint],
+    *,
+    title: str,
+    bound: float | Bound | None,
+    ylabel: str,
+    reference: float | None = None,
 ) -> Figure:
     points = _check_series(series)
     line = _bound_line(bound)
@@ -674,6 +684,15 @@ def _trend_figure(
         )
     if line is not None:
         legend.append(ax.axhline(line[0], color="0.25", linestyle="--", linewidth=1.2, label=_plain(line[1])))
+    if reference is not None:
+        if isinstance(reference, bool) or not isinstance(reference, int | float) or not math.isfinite(reference):
+            raise GateError(f"trend plot: reference must be a finite number, got {reference!r}")
+        legend.append(
+            ax.axhline(
+                float(reference), color=_COLOURS[2], linestyle=":", linewidth=1.4,
+                label=f"drift reference {float(reference):.4g}",
+            )
+        )
 
     top = np.array([float(p.high) if p.high is not None else np.nan for p in points])
     top = np.where(np.isfinite(top), top, value)
@@ -687,7 +706,7 @@ def _trend_figure(
             markeredgecolor=_ALARM_COLOUR, markeredgewidth=1.6, label=f"alarm: {_plain(kind, limit=40)}",
             zorder=5,
         )
-        if "cusum" not in kind.lower():
+        if not _is_cusum(kind):
             continue
         for i, y in zip(idx, ys, strict=True):
             if i > 0 and points[i - 1].alarm == kind:
@@ -720,9 +739,59 @@ def _trend_figure(
     return fig
 
 
+def _is_cusum(kind: str) -> bool:
+    """Alarm kinds that come from the CUSUM drift statistic (annotated where they fire)."""
+    k = kind.lower()
+    return "cusum" in k or k.startswith("drift")
+
+
 def _fallback_y(value: np.ndarray, line: tuple[float, str] | None) -> float:
     """Where to mark an alarm on a run without a value: at the bound, else the series' middle."""
     if line is not None:
         return line[0]
     finite = value[np.isfinite(value)]
     return float(np.median(finite)) if finite.size else 0.0
+
+
+def trend_points(series: Any, *, margin: bool = False) -> list[TrendPoint]:
+    """Chart points from one :class:`gate.watch.Series` (one check in one slice over the runs).
+
+    Parameters
+    ----------
+    series : a ``gate.watch.Series`` (read by attribute: ``points`` with ``run_id``, ``run_time``,
+        ``label``, ``value``, ``interval``, ``delta``, ``delta_interval``; ``alarms`` with ``kind``
+        and ``run_id``).
+    margin : plot the difference against the baseline (``delta`` with ``delta_interval``), as a
+        ``max_drop`` / ``max_rise`` check is judged, instead of the value.
+
+    Returns
+    -------
+    list of TrendPoint : oldest first. A run's label is its own label, else its time
+    (``YYYY-MM-DD HH:MM``), else ``run <id>``. Alarm kinds are "bound" and "drift (CUSUM)", or
+    "bound + drift (CUSUM)" for a run that raised both.
+    """
+    kinds: dict[int, list[str]] = {}
+    for alarm in series.alarms:
+        kind = "drift (CUSUM)" if alarm.kind == "drift" else str(alarm.kind)
+        if kind not in kinds.setdefault(alarm.run_id, []):
+            kinds[alarm.run_id].append(kind)
+    out = []
+    for p in series.points:
+        value, interval = (p.delta, p.delta_interval) if margin else (p.value, p.interval)
+        if p.label:
+            label = str(p.label)
+        elif p.run_time is not None:
+            label = p.run_time.strftime("%Y-%m-%d %H:%M")
+        else:
+            label = f"run {p.run_id}"
+        raised = sorted(kinds.get(p.run_id, []))  # "bound" before "drift (CUSUM)"
+        out.append(
+            TrendPoint(
+                label=label,
+                value=value,
+                low=interval.low if interval is not None and value is not None else None,
+                high=interval.high if interval is not None and value is not None else None,
+                alarm=" + ".join(raised) if raised else None,
+            )
+        )
+    return out

@@ -187,7 +187,7 @@ def test_any_markdown_gives_well_formed_html_without_raw_markup(text) -> None:
     out = markdown_to_html(text)
     root = parse_xml(out)
     allowed = {"div", "h1", "h2", "h3", "h4", "h5", "h6", "p", "br", "hr", "table", "thead", "tbody", "tr",
-               "th", "td", "ul", "ol", "li", "blockquote", "pre", "code", "strong", "em"}  # fmt: skip
+               "th", "td", "ul", "ol", "li", "blockquote", "pre", "code", "strong", "em"}
     assert {el.tag for el in root.iter()} <= allowed
     assert all(set(el.attrib) <= {"class"} for el in root.iter())
 

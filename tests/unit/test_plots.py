@@ -440,3 +440,65 @@ def test_slugify_is_always_a_safe_file_name(name) -> None:
     slug = slugify(name)
     assert SAFE.match(slug) and ".." not in slug and 1 <= len(slug) <= 60
     assert slugify(name) == slug
+
+
+# --- from the watch layer's series ----------------------------------------------------------------
+
+
+def watch_series():
+    from datetime import datetime, timedelta
+
+    from gate.stats.interval import Interval
+    from gate.watch import Alarm, Drift, Series
+    from gate.watch import TrendPoint as WatchPoint
+
+    t0 = datetime(2024, 5, 1, 2, 30)
+    values = [0.70, 0.71, 0.69, 0.66, 0.64, None]
+    points = []
+    for i, v in enumerate(values):
+        iv = None if v is None else Interval(v - 0.03, v + 0.03, 0.95, "delong")
+        delta = None if v is None else v - 0.70
+        div = None if v is None else Interval(delta - 0.02, delta + 0.02, 0.95, "delong")
+        points.append(
+            WatchPoint(
+                run_id=i + 1, run_time=t0 + timedelta(days=i), label="nightly-3" if i == 2 else None,
+                outcome="pass", value=v, interval=iv, n_pos=40, baseline_value=0.70, delta=delta,
+                delta_interval=div, se=None, role="monitored",
+            )
+        )
+    bound = Bound("at_least", 0.65)
+    alarms = (
+        Alarm("drift", 5, t0 + timedelta(days=4), None, "CUSUM crossed h", onset_run_id=4, statistic=4.2),
+        Alarm("bound", 5, t0 + timedelta(days=4), None, "below the floor", bound=bound, estimate=0.64),
+    )
+    return Series(
+        name="recall at 5% FPR", metric="recall_at_fpr", params={"fpr": 0.05}, slice=None,
+        higher_is_better=True, points=tuple(points), alarms=alarms,
+        drift=Drift("fired", reference=0.70, fired_run_id=5, onset_run_id=4),
+    )
+
+
+def test_trend_points_from_a_watch_series() -> None:
+    pts = plots.trend_points(watch_series())
+    assert [p.label for p in pts] == [
+        "2024-05-01 02:30", "2024-05-02 02:30", "nightly-3", "2024-05-04 02:30", "2024-05-05 02:30", "2024-05-06 02:30",
+    ]
+    assert [p.alarm for p in pts] == [None, None, None, None, "bound + drift (CUSUM)", None]
+    assert pts[4].value == 0.64 and pts[4].low == pytest.approx(0.61) and pts[4].high == pytest.approx(0.67)
+    assert pts[5].value is None and pts[5].low is None
+    deltas = plots.trend_points(watch_series(), margin=True)
+    assert deltas[4].value == pytest.approx(-0.06) and deltas[4].low == pytest.approx(-0.08)
+
+
+def test_drift_alarm_is_annotated_and_reference_drawn() -> None:
+    series = watch_series()
+    fig = plots._trend_figure(
+        plots.trend_points(series), title=series.name, bound=Bound("at_least", 0.65), ylabel="recall",
+        reference=series.drift.reference,
+    )
+    ax = fig.axes[0]
+    assert [t.get_text() for t in ax.texts] == ["CUSUM fired at 2024-05-05 02:30"]
+    assert "drift reference 0.7" in legend_texts(ax)
+    assert "alarm: bound + drift (CUSUM)" in legend_texts(ax)
+    with pytest.raises(GateError, match="reference must be a finite number"):
+        plots._trend_figure(plots.trend_points(series), title="t", bound=None, ylabel="v", reference=math.nan)
