@@ -36,7 +36,6 @@ import numpy as np
 from gate.errors import GateError, MissingExtraError
 
 if TYPE_CHECKING:
-    from matplotlib.axes import Axes
     from matplotlib.figure import Figure
 
     from gate.ranking import TieBlocks
