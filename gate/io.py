@@ -306,7 +306,8 @@ def _arrow_to_numpy(column: Any) -> NDArray[Any]:
     if pa.types.is_dictionary(column.type):
         column = pc.cast(column, column.type.value_type)
     if column.null_count == 0 and not pa.types.is_nested(column.type):
-        return np.asarray(column.to_numpy(zero_copy_only=False))
+        # a copy: zero-copy views of Arrow memory are read-only
+        return np.array(column.to_numpy(zero_copy_only=False), copy=True)
     values = column.to_pylist()
     out = np.empty(len(values), dtype=object)
     for i, v in enumerate(values):  # element-wise so that list values stay single cells

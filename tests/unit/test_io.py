@@ -366,6 +366,25 @@ def test_jsonl_missing_key_is_a_missing_value(tmp_path: Path) -> None:
     assert "no id column 'id'; the columns are: 'label', 'score'" in error_of(path)
 
 
+def test_jsonl_row_and_line_numbers_skip_blank_lines(tmp_path: Path) -> None:
+    lines = ['{"id": "a", "label": 1, "score": 0.5}', "", '{"id": "b", "label": 0, "score": 0.2}', "   ",
+             '{"id": "c", "label": 0, "score": 0.1}', '{"id": "c", "label": 1, "score": 0.3}']
+    for name in ("s.jsonl", "s.jsonl.gz"):  # the Arrow reader and the line-by-line reader agree
+        path = tmp_path / name
+        data = ("\n".join(lines) + "\n").encode()
+        path.write_bytes(gzip.compress(data) if name.endswith(".gz") else data)
+        assert error_of(path).endswith(
+            "column 'id': 1 duplicate id; first 'c' at row 4 (line 6 of the file), already at row 3 (line 5 of the file)"
+        )
+
+
+def test_parquet_columns_are_writable_copies(tmp_path: Path) -> None:
+    _basic_frame().assign(age=[1, 2, 3, 4]).to_parquet(tmp_path / "s.parquet")
+    table = read_table(tmp_path / "s.parquet")
+    assert table.columns["age"].tolist() == [1, 2, 3, 4]
+    assert table.columns["age"].flags.writeable and table.scores.flags.writeable
+
+
 def test_corrupt_parquet(tmp_path: Path) -> None:
     path = tmp_path / "s.parquet"
     path.write_bytes(b"PAR1 but not really")
