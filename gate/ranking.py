@@ -1145,10 +1145,12 @@ def _upper_hull(x: NDArray[np.float64], y: NDArray[np.float64]) -> NDArray[np.in
     Points on a hull edge (collinear) are not vertices. Rounding: a point counts as above the
     chord of its neighbours only when the cross product exceeds a few units of its rounding error.
     """
-    idx = np.arange(x.size)
+    # Exact duplicates (zero-weight blocks repeat a point) would shield each other from the
+    # test below; keep one of each. Both coordinates are non-decreasing, so they are adjacent.
+    idx = np.flatnonzero(np.concatenate([[True], (np.diff(x) != 0) | (np.diff(y) != 0)]))
     # Vectorised passes: drop every interior point not strictly above the chord of its current
-    # neighbours. Such a point is never a hull vertex, and hull vertices always survive, so
-    # dropping them all at once is safe. Most points go in the first few passes.
+    # neighbours. Such a point is never a hull vertex, and (the points being distinct) hull
+    # vertices always survive, so dropping them all at once is safe. Most points go in the first few passes.
     for _ in range(64):
         if idx.size <= 2:
             return idx

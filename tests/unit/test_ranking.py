@@ -417,6 +417,17 @@ def test_roc_hull_long_staircase_uses_both_passes() -> None:
     assert hull_auc(b) >= roc_auc(b)
 
 
+def test_roc_hull_cascade_beyond_the_vectorised_passes() -> None:
+    # A concave run of 200 points ending in a tall jump: each vectorised pass can drop only the
+    # last interior point, so the monotone-chain finish does the rest. Every point lies under the
+    # diagonal chord, so the hull is the chance line.
+    m = 200
+    b = tb(np.arange(m + 1, 0, -1), np.append(np.arange(m, 0, -1.0), 1e6), np.ones(m + 1))
+    f, t = roc_hull(b)
+    assert f.tolist() == [0.0, 1.0] and t.tolist() == [0.0, 1.0]
+    assert hull_auc(b) == 0.5 and roc_auc(b) < 0.5
+
+
 # --- Brier ----------------------------------------------------------------------------------------
 
 
