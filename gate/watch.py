@@ -37,18 +37,26 @@ k = 0.5 tunes the CUSUM to a sustained shift of ``2k = 1`` standard error, the u
 choice (Montgomery, *Introduction to Statistical Quality Control*, recommends k = 0.5 with h = 4
 or 5 [memory]). With a known reference and independent N(0, 1) z values the one-sided average run
 length is about 336 runs between false alarms for h = 4 and about 930 for h = 5, and about 8.4 /
-10.4 runs to detect a 1-SE shift (Siegmund's 1985 approximation, checked in
-``tests/simulation/test_cusum_rates.py``; Montgomery tabulates the two-sided values 168 and 465
-[memory]). We take h = 4: a nightly job should see a 1-SE decay within about ten nights.
+10.4 runs to detect a 1-SE shift (Brook-Evans Markov chain; Siegmund's 1985 approximation agrees
+within 1%; both in ``tests/simulation/test_cusum_rates.py``; Montgomery tabulates the two-sided
+values 168 and 465 [memory]). We take h = 4: a nightly job should see a 1-SE decay within about ten nights.
 
-False alarms in a 30-night window. With a *known* reference, 25 monitored nights with h = 4 raise a
-false alarm in about 6% of stable windows. With a reference estimated from only 5 runs the rate is
-much higher, about 16% (the reference's own error is shared by every z of the window; the rates are
-derived by a Markov-chain computation and checked by simulation in the tests). These rates assume
-each night's value scatters by its full standard error, as when the evaluation set is drawn afresh
-each night. On a fixed evaluation set, successive models are scored on the same rows, the nightly
-scatter is much smaller than the SE and false alarms are rarer. For fresh nightly samples, raise
-``reference_runs`` (10 runs: about 10%) and ``cusum_h`` (h = 5 with 10 reference runs: about 6%).
+False alarms in a 30-night window (the reference runs plus the nights watched after them).
+With a *known* reference, 25 watched nights with h = 4 raise a false alarm in about 6% of stable
+windows. With the reference estimated from only 5 runs the rate is much higher, about 16%: the
+reference's own error is shared by every z of the window (it would be 21% if each z were divided
+by SE_t alone). Longer references help: 10 reference runs give about 10% (h = 4) or 5.8% (h = 5),
+15 reference runs with h = 5 about 2.9%. These rates are computed by the Brook-Evans Markov chain
+averaged over the reference's error and checked by simulation through :func:`compute_trend` in
+``tests/simulation/test_cusum_rates.py``. They assume each night's value scatters by its full
+standard error, as when the evaluation set is drawn afresh each night. On a fixed evaluation set
+successive models are scored on the same rows, the nightly scatter is smaller than the SE and
+false alarms are rarer (and the alarm still fires on a decay measured in SE units). For fresh
+nightly samples, raise ``reference_runs`` to 10-15 and ``cusum_h`` to 5.
+
+Detection: a slow decay of 0.2 SE per night after a 5-run reference is flagged on the 8th-9th
+watched night in the median (the noise-free path crosses h = 4 on night 9), and by night 14 in 95%
+of windows (same test file).
 
 References
 ----------
@@ -62,7 +70,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from datetime import datetime
 from statistics import NormalDist
 from typing import TYPE_CHECKING, Literal
@@ -383,39 +391,21 @@ def _series(
     higher_is_better, notes = _direction([c for _, c in key_checks], latest.metric)
     sign = 1.0 if higher_is_better else -1.0
 
-    points: list[TrendPoint] = []
-    eligible: list[int] = []  # indices into points usable by the drift statistic
+    # 1. standard errors, and which runs the drift statistic can use
+    ses: list[float | None] = []
+    eligible: list[int] = []
     no_value = no_interval = zero_width = 0
-    for run, check in key_checks:
+    for i, (_run, check) in enumerate(key_checks):
         se = standard_error(check.interval) if check.interval is not None else None
-        usable = True
+        ses.append(se)
         if check.value is None:
             no_value += 1
-            usable = False
         elif se is None:
             no_interval += 1
-            usable = False
         elif not (math.isfinite(se) and se > 0.0):
             zero_width += 1
-            usable = False
-        if usable:
-            eligible.append(len(points))
-        points.append(
-            TrendPoint(
-                run_id=run.run_id,
-                run_time=run.run_time,
-                label=run.label,
-                outcome=check.outcome,
-                value=check.value,
-                interval=check.interval,
-                n_pos=check.n_pos,
-                baseline_value=check.baseline_value,
-                delta=check.delta,
-                delta_interval=check.delta_interval,
-                se=se,
-                role="monitored" if usable else "left out",
-            )
-        )
+        else:
+            eligible.append(i)
     if no_value:
         notes.append(f"{no_value} run(s) without a value (skipped) left out of the drift statistic")
     if no_interval:
@@ -426,77 +416,92 @@ def _series(
             "left out of the drift statistic"
         )
 
-    alarms: list[Alarm] = []
-    for run, check in key_checks:
-        alarms.extend(_bound_alarms(run, check))
-
+    # 2. reference, standardised shortfalls and the CUSUM path
+    roles: list[Role] = ["left out"] * len(key_checks)
+    z_of: dict[int, float] = {}
+    s_of: dict[int, float] = {}
+    ref_idx, watch_idx = eligible[:reference_runs], eligible[reference_runs:]
+    for i in eligible:
+        roles[i] = "monitored"
+    for i in ref_idx:
+        roles[i] = "reference"
+    path: Cusum | None = None
+    reference = reference_se = None
     if len(eligible) < min_runs:
         notes.append(
             f"no drift verdict: {len(eligible)} run(s) with a value and an interval, the drift "
             f"statistic needs at least {min_runs} ({reference_runs} for the reference and one to watch)"
         )
-        for i in eligible[:reference_runs]:
-            points[i] = _replace_role(points[i], "reference")
-        drift = Drift(status="too few runs")
-        return Series(
-            name=latest.name,
-            metric=latest.metric,
-            params=dict(latest.params),
-            slice=latest.slice,
-            higher_is_better=higher_is_better,
-            points=tuple(points),
-            alarms=tuple(alarms),
-            drift=drift,
-            notes=tuple(notes),
-        )
+    else:
+        values = [key_checks[i][1].value for i in ref_idx]
+        reference = math.fsum(v for v in values if v is not None) / reference_runs
+        reference_se = math.sqrt(math.fsum(ses[i] ** 2 for i in ref_idx if ses[i] is not None)) / reference_runs
+        z_values = []
+        for i in watch_idx:
+            value, se = key_checks[i][1].value, ses[i]
+            assert value is not None and se is not None  # eligible
+            z_values.append(sign * (reference - value) / math.hypot(se, reference_se))
+        path = cusum(z_values, k=k, h=h)
+        z_of = dict(zip(watch_idx, z_values))
+        s_of = dict(zip(watch_idx, path.statistic))
 
-    ref_idx, watch_idx = eligible[:reference_runs], eligible[reference_runs:]
-    values = [points[i].value for i in ref_idx]
-    ses = [points[i].se for i in ref_idx]
-    reference = math.fsum(v for v in values if v is not None) / reference_runs
-    reference_se = math.sqrt(math.fsum(s * s for s in ses if s is not None)) / reference_runs
-    z_values = []
-    for i in watch_idx:
-        point = points[i]
-        assert point.value is not None and point.se is not None
-        z_values.append(sign * (reference - point.value) / math.hypot(point.se, reference_se))
-    path = cusum(z_values, k=k, h=h)
-    for i in ref_idx:
-        points[i] = _replace_role(points[i], "reference")
-    for j, i in enumerate(watch_idx):
-        point = points[i]
-        points[i] = replace(point, z=z_values[j], cusum=path.statistic[j])
-
-    fired_run_id = onset_run_id = None
-    if path.fired_at is not None and path.onset is not None:
-        fired = points[watch_idx[path.fired_at]]
-        onset = points[watch_idx[path.onset]]
-        fired_run_id, onset_run_id = fired.run_id, onset.run_id
-        alarms.append(
-            Alarm(
-                kind="drift",
-                run_id=fired.run_id,
-                run_time=fired.run_time,
-                label=fired.label,
-                message=(
-                    f"sustained drift toward the failing side: CUSUM {path.statistic[path.fired_at]:.3g} > "
-                    f"h = {h:g} at run {fired.run_id}, drift began at run {onset.run_id} "
-                    f"(reference {reference:.4g} from runs {points[ref_idx[0]].run_id}-{points[ref_idx[-1]].run_id})"
-                ),
-                onset_run_id=onset.run_id,
-                statistic=path.statistic[path.fired_at],
-            )
+    # 3. points and alarms
+    points = tuple(
+        TrendPoint(
+            run_id=run.run_id,
+            run_time=run.run_time,
+            label=run.label,
+            outcome=check.outcome,
+            value=check.value,
+            interval=check.interval,
+            n_pos=check.n_pos,
+            baseline_value=check.baseline_value,
+            delta=check.delta,
+            delta_interval=check.delta_interval,
+            se=ses[i],
+            role=roles[i],
+            z=z_of.get(i),
+            cusum=s_of.get(i),
         )
-    drift = Drift(
-        status="fired" if path.fired_at is not None else "quiet",
-        reference=reference,
-        reference_se=reference_se,
-        reference_run_ids=tuple(points[i].run_id for i in ref_idx),
-        fired_run_id=fired_run_id,
-        onset_run_id=onset_run_id,
-        statistic=path.statistic[-1],
-        peak=max(path.statistic),
+        for i, (run, check) in enumerate(key_checks)
     )
+    alarms: list[Alarm] = []
+    for run, check in key_checks:
+        alarms.extend(_bound_alarms(run, check))
+
+    if path is None:
+        drift = Drift(status="too few runs")
+    else:
+        fired_run_id = onset_run_id = None
+        if path.fired_at is not None and path.onset is not None:
+            fired = points[watch_idx[path.fired_at]]
+            onset = points[watch_idx[path.onset]]
+            fired_run_id, onset_run_id = fired.run_id, onset.run_id
+            alarms.append(
+                Alarm(
+                    kind="drift",
+                    run_id=fired.run_id,
+                    run_time=fired.run_time,
+                    label=fired.label,
+                    message=(
+                        f"sustained drift toward the failing side: CUSUM {path.statistic[path.fired_at]:.3g} > "
+                        f"h = {h:g} at run {fired.run_id}, drift began at run {onset.run_id} "
+                        f"(reference {reference:.4g} from runs {points[ref_idx[0]].run_id}-{points[ref_idx[-1]].run_id})"
+                    ),
+                    onset_run_id=onset.run_id,
+                    statistic=path.statistic[path.fired_at],
+                )
+            )
+        drift = Drift(
+            status="fired" if path.fired_at is not None else "quiet",
+            reference=reference,
+            reference_se=reference_se,
+            reference_run_ids=tuple(points[i].run_id for i in ref_idx),
+            fired_run_id=fired_run_id,
+            onset_run_id=onset_run_id,
+            statistic=path.statistic[-1] if path.statistic else None,
+            peak=max(path.statistic) if path.statistic else None,
+        )
     alarms.sort(key=lambda a: (a.run_time, a.run_id, a.kind))
     return Series(
         name=latest.name,
@@ -504,15 +509,11 @@ def _series(
         params=dict(latest.params),
         slice=latest.slice,
         higher_is_better=higher_is_better,
-        points=tuple(points),
+        points=points,
         alarms=tuple(alarms),
         drift=drift,
         notes=tuple(notes),
     )
-
-
-def _replace_role(point: TrendPoint, role: Role) -> TrendPoint:
-    return replace(point, role=role)
 
 
 def _key(check: CheckResult) -> tuple[object, ...]:
