@@ -113,6 +113,13 @@ def test_regressing_candidate_is_worse_in_one_district_only(scenario) -> None:  
             assert regr[district][1] >= prod[district][1]
 
 
+def test_regressing_candidate_hides_in_the_pooled_figures(scenario) -> None:  # type: ignore[no-untyped-def]
+    y = scenario.eval_set["label"].to_numpy()
+    prod, regr = scenario.production["score"].to_numpy(), scenario.candidate_regressing["score"].to_numpy()
+    assert abs(roc_auc_score(y, regr) - roc_auc_score(y, prod)) <= 0.015
+    assert recall_at_fpr(y, regr, 0.05) >= recall_at_fpr(y, prod, 0.05) - 0.01
+
+
 def test_small_scenarios_and_bad_size() -> None:
     small = generate_scenario(seed=5, n_segments=500)
     assert len(small.eval_set) == 500
