@@ -1,9 +1,12 @@
-"""What the three reports share: number formats, labels, counts, derived warnings, methods line.
+"""What the three reports share: number formats, labels, counts, warnings, methods line.
 
-Everything here returns raw (unescaped) text; each renderer escapes for its own format. The
-warnings the reports add are derived from the structured fields of a CheckResult (outcome,
-decisions, intervals), so they appear even when the evaluate layer did not write them; the
-evaluate layer's own warnings follow, with exact repeats dropped.
+Everything here returns raw (unescaped) text; each renderer escapes for its own format.
+Warnings are the evaluate layer's: the reports render them once each and do not invent them.
+The one notice added here is :func:`inconclusive_note`, which JUnit needs on the test case
+itself (the evaluate layer lists that notice only in the run's warnings).
+
+Numbers: metric values and intervals with 4 decimals, differences signed, policy bounds as
+written (4 decimals when exact, else the shortest round-trip form), intervals as [low, high].
 """
 
 from __future__ import annotations
