@@ -6,9 +6,10 @@ weights) summed per block of the ranking that was sorted once: no re-sort per re
 replicate gives the same counts to the same examples under the candidate's and the baseline's
 rankings.
 
-Determinism: one ``numpy.random.Generator`` is built from ``seed`` and each replicate draws its
-indices with its own calls, in replicate order, so the replicates do not depend on ``chunk_size``
-(which only bounds memory: the statistic sees ``chunk_size`` replicates at a time).
+Determinism: one ``numpy.random.Generator`` is built from ``seed``; replicate ``i`` takes the
+``i``-th run of ``n`` uniform doubles from it (a double is always one 64-bit word of the stream),
+so the replicates do not depend on ``chunk_size``, which only bounds memory: the draws and the
+statistic handle ``chunk_size`` replicates at a time.
 """
 
 from __future__ import annotations
@@ -253,8 +254,9 @@ def bootstrap(
     -----
     Replicate counts: for each replicate, ``m`` indices drawn uniformly with replacement among the
     ``m`` positives and ``n`` among the ``n`` negatives (stratified), or ``m + n`` among all
-    examples; an example's count times its table weight is its replicate weight. Replicate tie
-    blocks are weighted ``bincount`` sums over the examples' blocks: O(n) per replicate, no sort.
+    examples, each index ``floor(u * size)`` from a uniform double ``u``; an example's count times
+    its table weight is its replicate weight. Replicate tie blocks are weighted ``bincount`` sums
+    over the examples' blocks: O(n) per replicate, no sort.
 
     BCa acceleration is estimated by a jackknife: delete-one when there are at most 200
     examples; otherwise a grouped (delete-one-group) jackknife over 200 groups, formed by
@@ -407,10 +409,11 @@ def replicate_counts(
     out = np.zeros((b_count, ranking.n), dtype=np.int64)
     ex_pos = ranking.order[engine.pos_sorted]
     ex_neg = ranking.order[engine.neg_sorted]
-    for i in range(b_count):
-        cp, cn = engine.draw(rng)
-        out[i, ex_pos] = cp
-        out[i, ex_neg] = cn
+    for start in range(0, b_count, 64):
+        stop = min(b_count, start + 64)
+        cp, cn = engine.draw(rng, stop - start)
+        out[start:stop, ex_pos] = cp
+        out[start:stop, ex_neg] = cn
     return out
 
 
@@ -464,16 +467,45 @@ class _Engine:
                 _Model(r.thresholds, int(r.starts.size), bp, bn, None if unit else wp, None if unit else wn)
             )
 
-    def draw(self, rng: np.random.Generator) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
-        """One replicate's counts for the positives and the negatives (reference listing)."""
+    def draw(self, rng: np.random.Generator, c: int) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
+        """Counts of ``c`` consecutive replicates, ``(c, m)`` for the positives and ``(c, n)`` for
+        the negatives (reference listing).
+
+        Each replicate takes ``m + n`` uniform doubles from ``rng`` (the positives' draws, then
+        the negatives'), and index ``floor(u * size)``. A double consumes exactly one 64-bit word
+        of the bit generator whatever the call's shape, so ``c`` replicates drawn at once equal
+        ``c`` drawn one by one: the replicates do not depend on the chunking. (The index is
+        uniform up to a relative error of ``size / 2**53``, below 1e-9 for any evaluation set.)
+        """
         m, nn = self.m, self.n_neg
+        total = m + nn
+        # u <= 1 - 2**-53, so u * size rounds to at most size - 1 (for any size < 2**53).
+        u = rng.random((c, total))
         if self.stratified:
-            cp = np.bincount(rng.integers(0, m, size=m), minlength=m)
-            cn = np.bincount(rng.integers(0, nn, size=nn), minlength=nn)
-            return cp, cn
-        # Index i < m is the i-th positive, index m + j the j-th negative.
-        c = np.bincount(rng.integers(0, m + nn, size=m + nn), minlength=m + nn)
-        return c[:m], c[m:]
+            u[:, :m] *= m
+            u[:, m:] *= nn
+            idx = u.astype(np.intp)
+            idx[:, m:] += m  # negatives' slots follow the positives' in one count vector
+        else:
+            u *= total
+            idx = u.astype(np.intp)
+        del u
+        idx += (np.arange(c, dtype=np.intp) * total)[:, None]
+        counts = np.bincount(idx.ravel(), minlength=c * total).reshape(c, total)
+        return counts[:, :m], counts[:, m:]
+
+    def blocks(
+        self, mod: _Model, cp: NDArray[np.int64], cn: NDArray[np.int64]
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """``(c, k)`` replicate block weights of one model from the replicates' counts."""
+        c = cp.shape[0]
+        offsets = (np.arange(c, dtype=np.intp) * mod.k)[:, None]
+        out = []
+        for counts, block, weight in ((cp, mod.block_pos, mod.weight_pos), (cn, mod.block_neg, mod.weight_neg)):
+            w = counts if weight is None else counts * weight
+            sums = np.bincount((block + offsets).ravel(), weights=w.ravel(), minlength=c * mod.k)
+            out.append(sums.reshape(c, mod.k))
+        return out[0], out[1]
 
     def estimates(self, statistic: Statistic) -> list[float]:
         out = []
@@ -495,19 +527,13 @@ class _Engine:
     ) -> list[NDArray[np.float64]]:
         rng = np.random.default_rng(seed)
         k_max = max(mod.k for mod in self.models)
-        chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // k_max))
+        chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // max(k_max, self.m + self.n_neg)))
         out = [np.empty(resamples, dtype=np.float64) for _ in self.models]
         for start in range(0, resamples, chunk):
             stop = min(resamples, start + chunk)
-            counts = [self.draw(rng) for _ in range(stop - start)]
+            cp, cn = self.draw(rng, stop - start)
             for mod, res in zip(self.models, out):
-                pos = np.empty((stop - start, mod.k), dtype=np.float64)
-                neg = np.empty((stop - start, mod.k), dtype=np.float64)
-                for j, (cp, cn) in enumerate(counts):
-                    wp = cp if mod.weight_pos is None else cp * mod.weight_pos
-                    wn = cn if mod.weight_neg is None else cn * mod.weight_neg
-                    pos[j] = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
-                    neg[j] = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
+                pos, neg = self.blocks(mod, cp, cn)
                 where = f"bootstrap replicates {start + 1}-{stop}"
                 res[start:stop] = _evaluate(statistic, mod.thresholds, pos, neg, where)
             if progress is not None:
