@@ -70,7 +70,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import datetime
 from statistics import NormalDist
 from typing import TYPE_CHECKING, Literal
@@ -588,6 +588,12 @@ def compute_trend(
     series = tuple(
         _series(items, k=float(cusum_k), h=float(cusum_h), reference_runs=reference_runs, min_runs=minimum)
         for items in groups.values()
+    )
+    last_run = ordered[-1].run_id
+    series = tuple(
+        s if s.points[-1].run_id == last_run
+        else replace(s, notes=(*s.notes, f"not in the most recent run {last_run} (last seen in run {s.points[-1].run_id})"))
+        for s in series
     )
 
     notes: list[str] = []

@@ -113,7 +113,7 @@ def _value_cell(point: TrendPoint, confidence: float | None) -> str:
 
 
 def _common_confidence(trend: TrendResult) -> float | None:
-    levels = {s.last.interval.confidence for s in trend.series if s.last.interval is not None}
+    levels = {s.points[-1].interval.confidence for s in trend.series if s.points[-1].interval is not None}
     return levels.pop() if len(levels) == 1 else None
 
 
@@ -126,7 +126,7 @@ def _row(series: Series, confidence: float | None) -> str:
         _esc(_metric_text(series), cell=True),
         _esc(c.slice_text(series.slice), cell=True),
         runs,
-        _value_cell(series.last, confidence),
+        _value_cell(series.points[-1], confidence),  # the latest run, even when it was skipped
         reference,
         _drift_cell(series),
         _alarms_cell(series),

@@ -269,6 +269,8 @@ def test_series_split_by_slice_and_parameters_in_first_seen_order() -> None:
     keys = [(s.name, s.params.get("fpr"), s.slice) for s in trend.series]
     assert keys == [("recall", 0.01, north), ("recall", 0.01, south), ("recall", 0.05, north), ("auc", None, None)]
     assert [len(s.points) for s in trend.series] == [4, 4, 4, 1]
+    assert any("not in the most recent run 5 (last seen in run 4)" in n for n in trend.series[0].notes)
+    assert not any("most recent" in n for n in trend.series[3].notes)
 
 
 def test_runs_are_sorted_and_changes_of_eval_set_and_policy_are_noted() -> None:
@@ -365,3 +367,11 @@ def test_json_report_parses_and_carries_the_series() -> None:
     assert first["points"][6]["cusum"] == pytest.approx(3.75 * math.sqrt(3) - 1.5)
     assert doc["runs"]["first_run_time"] == "2024-05-02T02:00:00.000000Z"
     assert text.isascii() and text == render_trend_json(_drifting_trend())
+
+
+def test_markdown_shows_the_latest_run_even_when_skipped() -> None:
+    runs = series_of([0.9, 0.9, 0.9, None])
+    text = render_trend_markdown(compute_trend(runs, reference_runs=2))
+    row = next(line for line in text.splitlines() if line.startswith("| auc holds"))
+    assert "| 4 (3 usable) | - (skipped) | 0.9000 | 0.00 | none |" in row
+    assert "1 run(s) without a value (skipped)" in text
