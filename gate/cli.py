@@ -153,6 +153,51 @@ def demo_command(
     typer.echo(render_summary_text(summary), nl=False)
 
 
+@app.command("trend")
+@guarded
+def trend_command(
+    history: Path = typer.Option(..., "--history", help="Run history database written by check --history."),
+    policy: Path | None = typer.Option(
+        None, "--policy", help="Policy whose [watch] section sets the CUSUM (default k = 0.5, h = 4, 5 reference runs)."
+    ),
+    since: str | None = typer.Option(
+        None, "--since", help="Only runs at or after this ISO 8601 date or time (UTC unless an offset is given)."
+    ),
+    last: int | None = typer.Option(None, "--last", help="Only the last N runs (after --since)."),
+    summary: Path | None = typer.Option(None, "--summary", help="Write the markdown summary to this file."),
+    json_out: Path | None = typer.Option(None, "--json", help="Write the trend as JSON to this file."),
+    quiet: bool = typer.Option(False, "--quiet", help="Do not print the summary on stdout."),
+    title: str | None = typer.Option(None, "--title", help="Title of the summary."),
+) -> None:
+    """Watch the run history: every check's series, bound and drift alarms. Exit 1 on an alarm, else 0."""
+    from gate.history import load_runs, parse_time
+    from gate.report.output import write_report
+    from gate.report.trend import render_trend_json, render_trend_markdown
+    from gate.watch import compute_trend
+
+    settings: dict[str, Any] = {}
+    if policy is not None:
+        from gate.policy import load_policy
+
+        watch = load_policy(policy).watch
+        settings = {
+            "cusum_k": watch.cusum_k,
+            "cusum_h": watch.cusum_h,
+            "reference_runs": watch.reference_runs,
+            "min_runs": watch.min_runs,
+        }
+    window_start = parse_time(since, what="--since") if since is not None else None
+    trend = compute_trend(load_runs(history, since=window_start, last=last), **settings)
+    markdown = render_trend_markdown(trend, title=title)
+    if summary is not None:
+        write_report(summary, markdown)
+    if json_out is not None:
+        write_report(json_out, render_trend_json(trend))
+    if not quiet:
+        typer.echo(markdown, nl=not markdown.endswith("\n"))
+    raise typer.Exit(EXIT_FAIL if trend.alarmed else EXIT_PASS)
+
+
 def main() -> None:
     """Console-script entry point."""
     try:
