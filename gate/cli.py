@@ -49,6 +49,11 @@ def guarded(fn: F) -> F:
             message = " ".join(str(exc).split())  # one line, whatever the cause contained
             typer.echo(f"error: {message}", err=True)
             raise typer.Exit(EXIT_ERROR) from None
+        except BrokenPipeError:
+            # The reader of stdout went away (``rankgate demo | head``): stop quietly. Not 0: the
+            # command did not finish, and a verdict must never be read into it.
+            _quiet_broken_pipe()
+            raise typer.Exit(EXIT_ERROR) from None
         except KeyboardInterrupt:
             typer.echo("error: interrupted", err=True)
             raise typer.Exit(EXIT_ERROR) from None
@@ -153,6 +158,225 @@ def demo_command(
     typer.echo(render_summary_text(summary), nl=False)
 
 
+# --- the gate: check / adopt / init ------------------------------------------------------------
+
+
+def _progress_callback() -> Any:
+    """A bootstrap progress line on stderr, only when stderr is a terminal."""
+    if not sys.stderr.isatty():
+        return None
+    import time
+
+    start = time.monotonic()
+    state = {"shown": False}
+
+    def progress(done: int, total: int) -> None:
+        if time.monotonic() - start < 1.0 and not state["shown"]:
+            return  # short work: no bar
+        state["shown"] = True
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\rbootstrap [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\r" + " " * (width + 30) + "\r")
+        sys.stderr.flush()
+
+    return progress
+
+
+def _need_plots() -> None:
+    from gate.plots import require_matplotlib
+
+    require_matplotlib()
+
+
+def _check_plots(result: Any, policy: Any, candidate: Any, baseline: Any, directory: Path) -> list[Path]:
+    """ROC and precision-recall charts of candidate (and baseline) for the policy's checks."""
+    from gate import ranking as rk
+    from gate.plots import plot_pr, plot_roc, slugify
+
+    directory.mkdir(parents=True, exist_ok=True)
+    curves = {"candidate": rk.tie_blocks(candidate.scores, candidate.labels, candidate.weights)}
+    if baseline is not None:
+        curves["baseline"] = rk.tie_blocks(baseline.scores, baseline.labels, baseline.weights)
+    caps = sorted({c.fpr for c in policy.checks if c.metric == "recall_at_fpr" and c.fpr is not None})
+    images: list[Path] = []
+    images += plot_roc(
+        curves,
+        title="ROC curve" + (f" (FPR cap {caps[0]:g})" if caps else ""),
+        fpr_cap=caps[0] if caps else None,
+        hull=True,
+        path=directory / "roc",
+    )
+    images += plot_pr(curves, title="Precision-recall curve", path=directory / "precision-recall")
+    for column in getattr(policy, "by_columns", ()):
+        if column not in candidate.columns:
+            continue
+        from gate.evaluation import slice_masks
+
+        for value, mask in slice_masks(candidate, column):
+            from gate.io import subset
+
+            sub = {"candidate": subset(candidate, mask)}
+            if baseline is not None:
+                sub["baseline"] = subset(baseline, mask)
+            if min(t.n_pos for t in sub.values()) == 0 or min(t.n_neg for t in sub.values()) == 0:
+                continue
+            blocks = {k: rk.tie_blocks(t.scores, t.labels, t.weights) for k, t in sub.items()}
+            images += plot_roc(
+                blocks,
+                title=f"ROC curve, {column} = {value}",
+                fpr_cap=caps[0] if caps else None,
+                path=directory / f"roc-{slugify(column)}-{slugify(value)}",
+            )
+    return images
+
+
+@app.command("check")
+@guarded
+def check_command(
+    policy: Path = typer.Option(..., "--policy", help="Policy file (TOML)."),
+    candidate: Path = typer.Option(..., "--candidate", help="The candidate's score table."),
+    baseline: Path | None = typer.Option(
+        None, "--baseline", help="Baseline directory (from rankgate adopt) or a score table of the production model."
+    ),
+    summary: Path | None = typer.Option(None, "--summary", help="Write the markdown summary to this file."),
+    append: bool = typer.Option(False, "--append", help="Append to --summary instead of replacing it (CI job summaries)."),
+    json_out: Path | None = typer.Option(None, "--json", help="Write the JSON report to this file."),
+    junit_out: Path | None = typer.Option(None, "--junit", help="Write a JUnit XML report to this file."),
+    quiet: bool = typer.Option(False, "--quiet", help="Do not print the summary on stdout."),
+    history: Path | None = typer.Option(None, "--history", help="Append this run to a history database (SQLite)."),
+    label: str | None = typer.Option(None, "--label", help="Run label for --history (default: the CI commit id)."),
+    plots: Path | None = typer.Option(None, "--plots", help="Write ROC and precision-recall charts to this directory."),
+    html: Path | None = typer.Option(None, "--html", help="Write one self-contained HTML page (summary and charts)."),
+    title: str | None = typer.Option(None, "--title", help="Title of the summary."),
+) -> None:
+    """Run the gate: exit 0 if every check passed, 1 if one failed, 2 if the inputs cannot be evaluated."""
+    from gate.evaluation import baseline_table, evaluate, load_inputs
+    from gate.policy import load_policy
+    from gate.report import render_json, render_junit, render_markdown
+    from gate.report.output import write_report
+
+    if plots is not None or html is not None:
+        _need_plots()
+    pol = load_policy(policy)
+    cand_table, base_obj = load_inputs(pol, candidate, baseline)
+    base_table = baseline_table(base_obj)
+    result = evaluate(pol, cand_table, base_obj, progress=_progress_callback())
+    markdown = render_markdown(result, title=title)
+    if summary is not None:
+        write_report(summary, markdown, append=append)
+    if json_out is not None:
+        write_report(json_out, render_json(result))
+    if junit_out is not None:
+        write_report(junit_out, render_junit(result))
+    if history is not None:
+        from gate.history import record_run
+
+        record_run(history, result, label=label)
+    if plots is not None or html is not None:
+        import tempfile
+
+        from gate.baseline import align
+
+        base_aligned = None
+        cand_aligned = cand_table
+        if base_table is not None:
+            al = align(cand_table, base_table, on_mismatch=pol.baseline.on_mismatch)
+            cand_aligned, base_aligned = al.candidate, al.baseline
+        with tempfile.TemporaryDirectory() as scratch:
+            directory = plots if plots is not None else Path(scratch)
+            images = _check_plots(result, pol, cand_aligned, base_aligned, directory)
+            if html is not None:
+                from gate.report.html import write_html
+
+                write_html(html, title=title or "rankgate check", summary_markdown=markdown, images=images)
+    if not quiet:
+        try:
+            typer.echo(markdown, nl=not markdown.endswith("\n"))
+        except BrokenPipeError:  # the verdict below still decides the exit code
+            _quiet_broken_pipe()
+    raise typer.Exit(EXIT_PASS if result.verdict == "pass" else EXIT_FAIL)
+
+
+@app.command("adopt")
+@guarded
+def adopt_command(
+    candidate: Path = typer.Option(..., "--candidate", help="Score table of the model that becomes the baseline."),
+    baseline: Path = typer.Option(..., "--baseline", help="Baseline directory (created on first use)."),
+    policy: Path | None = typer.Option(None, "--policy", help="Policy whose [data] section names the columns."),
+    note: str | None = typer.Option(None, "--note", help="A note stored in the manifest (e.g. the commit)."),
+    new_eval_set: bool = typer.Option(
+        False, "--new-eval-set", help="Allow a candidate scored on a different evaluation set than the current baseline."
+    ),
+) -> None:
+    """Store the candidate's scores as the production baseline (atomically)."""
+    from gate.baseline import adopt
+    from gate.io import ColumnSpec, read_table
+
+    spec = ColumnSpec()
+    if policy is not None:
+        from gate.policy import load_policy
+
+        spec = load_policy(policy).data.column_spec()
+    table = read_table(candidate, spec)
+    manifest = adopt(table, baseline, note=note, new_eval_set=new_eval_set)
+    typer.echo(
+        f"adopted {candidate} as the baseline in {baseline}: {manifest.n} examples "
+        f"({manifest.n_positive} positive), eval set {manifest.fingerprint[:12]}"
+    )
+
+
+@app.command("init")
+@guarded
+def init_command(
+    path: Path = typer.Argument(Path("rankgate.toml"), help="Where to write the starter policy."),
+) -> None:
+    """Write a commented starter policy (refuses to overwrite an existing file)."""
+    from gate.policy import write_starter_policy
+
+    written = write_starter_policy(path)
+    typer.echo(f"wrote {written}; edit its [data] and [[check]] sections, then run rankgate check")
+
+
+@app.command("plot")
+@guarded
+def plot_command(
+    candidate: Path = typer.Option(..., "--candidate", help="The candidate's score table."),
+    out: Path = typer.Option(Path("rankgate-plots"), "--out", help="Directory for the charts."),
+    baseline: Path | None = typer.Option(None, "--baseline", help="Baseline directory or score table to compare with."),
+    policy: Path | None = typer.Option(None, "--policy", help="Policy (columns, FPR cap, slices)."),
+    html: Path | None = typer.Option(None, "--html", help="Also write one self-contained HTML page with the charts."),
+) -> None:
+    """Draw ROC (with convex hull and the policy's FPR cap) and precision-recall curves."""
+    _need_plots()
+    from gate.baseline import align
+    from gate.evaluation import baseline_table, load_inputs
+    from gate.policy import parse_policy
+
+    if policy is not None:
+        from gate.policy import load_policy
+
+        pol = load_policy(policy)
+    else:
+        pol = parse_policy('[[check]]\nmetric = "roc_auc"\nat_least = 0.5\n', source="<default>")
+    cand_table, base_obj = load_inputs(pol, candidate, baseline)
+    base_table = baseline_table(base_obj)
+    base_aligned = None
+    if base_table is not None:
+        al = align(cand_table, base_table, on_mismatch=pol.baseline.on_mismatch)
+        cand_table, base_aligned = al.candidate, al.baseline
+    images = _check_plots(None, pol, cand_table, base_aligned, out)
+    for image in images:
+        typer.echo(f"wrote {image}")
+    if html is not None:
+        from gate.report.html import write_html
+
+        lines = [f"Charts of `{candidate.name}`" + (f" against `{baseline.name}`" if baseline else "") + "."]
+        written = write_html(html, title="rankgate plot", summary_markdown="\n".join(lines), images=images)
+        typer.echo(f"wrote {written}")
+
+
 @app.command("trend")
 @guarded
 def trend_command(
@@ -199,9 +423,34 @@ def trend_command(
 
 
 def main() -> None:
-    """Console-script entry point."""
+    """Console-script entry point: usage mistakes become one ``error:`` line and exit 2."""
+    try:  # typer >= 0.25 carries its own copy of click
+        from typer._click import exceptions as click_exceptions
+    except ImportError:  # pragma: no cover - older typer on top of click
+        from click import exceptions as click_exceptions
+
     try:
-        app(standalone_mode=True)
-    except SystemExit as exc:
-        code = exc.code if isinstance(exc.code, int) else (0 if exc.code is None else EXIT_ERROR)
-        sys.exit(code)
+        code = app(standalone_mode=False)
+    except click_exceptions.UsageError as exc:
+        command = exc.ctx.command_path if exc.ctx is not None else "rankgate"
+        message = " ".join(exc.format_message().split())
+        typer.echo(f"error: {message} (see '{command} --help')", err=True)
+        sys.exit(EXIT_ERROR)
+    except typer.Abort:
+        typer.echo("error: interrupted", err=True)
+        sys.exit(EXIT_ERROR)
+    except click_exceptions.ClickException as exc:
+        typer.echo(f"error: {' '.join(exc.format_message().split())}", err=True)
+        sys.exit(EXIT_ERROR)
+    sys.exit(code if isinstance(code, int) else EXIT_PASS)
+
+
+def _quiet_broken_pipe() -> None:
+    """The reader of stdout went away (``rankgate demo | head``): stop quietly, like other tools."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except OSError:
+        pass

@@ -101,9 +101,11 @@ def _rate(conf: rk.Confusion, which: str) -> Any:
 
 
 def _z(confidence: float) -> float:
-    from scipy.stats import norm
+    # statistics.NormalDist: exact enough (inverse CDF to ~1e-15) and avoids importing scipy.stats,
+    # which alone costs about a second of start-up.
+    from statistics import NormalDist
 
-    return float(norm.ppf(0.5 + confidence / 2.0))
+    return NormalDist().inv_cdf(0.5 + confidence / 2.0)
 
 
 def _norm_cdf(x: float) -> float:
@@ -246,20 +248,23 @@ class _Context:
     progress: Progress | None
 
 
+def slice_masks(table: ScoreTable, column: str, *, check_name: str | None = None) -> list[tuple[str, NDArray[np.bool_]]]:
+    """(value as text, row mask) for every distinct value of ``column``, values in sorted order.
+
+    Missing values (empty, null, NaN) form their own slice, shown as "(missing)".
+    """
+    if column not in table.columns:
+        have = ", ".join(sorted(table.columns)) or "(none besides id / label / score)"
+        what = f" (check {check_name!r}, by)" if check_name else ""
+        raise TableError(f"{table.source}: column {column!r}{what} not found; other columns: {have}")
+    text = np.array([_slice_text(v) for v in table.columns[column]], dtype=object)
+    return [(value, text == value) for value in sorted(set(text.tolist()))]
+
+
 def _slices(check: Check, table: ScoreTable) -> list[tuple[SliceKey | None, NDArray[np.bool_] | None]]:
     if check.by is None:
         return [(None, None)]
-    if check.by not in table.columns:
-        have = ", ".join(sorted(table.columns)) or "(none besides id/label/score)"
-        raise TableError(
-            f"{table.source}: column {check.by!r} (check {check.name!r}, by) not found; other columns: {have}"
-        )
-    raw = table.columns[check.by]
-    text = np.array([_slice_text(v) for v in raw], dtype=object)
-    out: list[tuple[SliceKey | None, NDArray[np.bool_] | None]] = []
-    for value in sorted(set(text.tolist())):
-        out.append((SliceKey(check.by, value), text == value))
-    return out
+    return [(SliceKey(check.by, v), m) for v, m in slice_masks(table, check.by, check_name=check.name)]
 
 
 def _slice_text(v: Any) -> str:
@@ -577,6 +582,29 @@ def _methods_line(policy: Policy, checks: list[CheckResult]) -> str:
 # --- public API ---------------------------------------------------------------------------------
 
 
+def load_inputs(
+    policy: Policy, candidate: str | PathLike[str], baseline: str | PathLike[str] | None
+) -> tuple[ScoreTable, Baseline | ScoreTable | None]:
+    """Read the candidate table and the baseline (a baseline directory or a score table) for ``policy``."""
+    cand = _as_table(candidate, policy, "candidate")
+    if baseline is None:
+        return cand, None
+    from gate.baseline import load_baseline
+
+    if Path(baseline).is_dir():
+        return cand, load_baseline(Path(baseline))
+    return cand, _as_table(baseline, policy, "baseline")
+
+
+def baseline_table(baseline: Baseline | ScoreTable | None) -> ScoreTable | None:
+    """The score table inside a loaded baseline (or the table itself)."""
+    from gate.baseline import Baseline
+
+    if isinstance(baseline, Baseline):
+        return baseline.table
+    return baseline
+
+
 def evaluate(
     policy: Policy | str | PathLike[str],
     candidate: Any,
@@ -618,6 +646,10 @@ def evaluate(
             notes["baseline_note"] = note
         al: Alignment = align(cand, base_table, on_mismatch=pol.baseline.on_mismatch)
         cand, base = al.candidate, al.baseline
+        if cand.weights is not None or base.weights is not None:
+            # Paired comparisons weigh each example the same for both models: the evaluation set's
+            # weights, as the candidate's table carries them.
+            base = replace(base, weights=cand.weights)
         if al.intersected:
             warnings.append(al.note)
             notes["mismatch"] = al.note
