@@ -144,18 +144,95 @@ def inspect_command(
 @guarded
 def demo_command(
     out: Path = typer.Option(Path("rankgate-demo"), "--out", help="Directory for the demo files."),
+    nights: int = typer.Option(30, "--nights", min=6, max=120, help="Nights of the simulated nightly watch."),
 ) -> None:
-    """Generate the invented leak-scoring scenario and inspect the better candidate."""
-    from gate.demo import write_scenario
-    from gate.io import ColumnSpec
-    from gate.summary import render_summary_text
+    """Run the invented leak-scoring scenario end to end: adopt, two gate checks, a month of nightly watching.
 
-    paths = write_scenario(out)
-    for path in paths.values():
-        typer.echo(f"wrote {path}")
-    typer.echo("")
-    summary = _summary_of(paths["candidate_better"], ColumnSpec(), cost_fp=1.0, cost_fn=1.0)
-    typer.echo(render_summary_text(summary), nl=False)
+    Exit 0 when the demo told its story (better candidate passes, regressing one fails, the nightly
+    trend raises an alarm); 1 if any of those came out otherwise.
+    """
+    from datetime import datetime, timedelta, timezone
+    from importlib.resources import files
+
+    from gate import demo
+    from gate.baseline import adopt
+    from gate.evaluation import evaluate
+    from gate.history import load_runs, record_run
+    from gate.io import read_table
+    from gate.policy import load_policy
+    from gate.report import render_json, render_junit, render_markdown
+    from gate.report.output import write_report
+    from gate.report.trend import render_trend_markdown
+    from gate.watch import compute_trend
+
+    def say(text: str = "") -> None:
+        typer.echo(text)
+
+    paths = demo.write_scenario(out)
+    for name in ("leak-watch.toml", "nightly-watch.toml"):
+        write_report(out / name, files("gate.data").joinpath(name).read_text(encoding="utf-8"))
+    policy = load_policy(out / "leak-watch.toml")
+    spec = policy.data.column_spec()
+    say(f"Demo scenario (invented, fixed seed) written to {out}/: {', '.join(p.name for p in paths.values())}")
+    say("")
+
+    say("== 1. rankgate adopt: store the production model's scores as the baseline")
+    manifest = adopt(
+        read_table(paths["production"], spec), out / "baseline", note="demo production model", new_eval_set=True
+    )
+    say(f"baseline {out / 'baseline'}: {manifest.n} segments, {manifest.n_positive} confirmed leaks")
+    say("")
+
+    verdicts: dict[str, str] = {}
+    for step, key in ((2, "candidate_better"), (3, "candidate_regressing")):
+        name = paths[key].stem
+        say(f"== {step}. rankgate check --policy leak-watch.toml --candidate {paths[key].name} --baseline baseline/")
+        result = evaluate(policy, paths[key], out / "baseline", progress=_progress_callback())
+        markdown = render_markdown(result, title=f"rankgate: {name}")
+        write_report(out / f"{name}-summary.md", markdown)
+        write_report(out / f"{name}-report.json", render_json(result))
+        write_report(out / f"{name}-junit.xml", render_junit(result))
+        say(markdown.rstrip("\n"))
+        code = EXIT_PASS if result.verdict == "pass" else EXIT_FAIL
+        say(f"-> exit code {code} ({result.verdict})")
+        say("")
+        verdicts[key] = result.verdict
+
+    say(f"== 4. {nights} nights of rankgate check --history, then rankgate trend")
+    nightly = load_policy(out / "nightly-watch.toml")
+    history = out / "history.sqlite"
+    if history.exists():
+        history.unlink()
+    start = datetime(2026, 11, 1, 2, 30, tzinfo=timezone.utc)
+    for night in range(nights):
+        frame = demo.nightly_scores(night)
+        run = evaluate(nightly, frame)
+        record_run(history, run, label=f"night-{night + 1:02d}", run_time=start + timedelta(days=night))
+    watch = nightly.watch
+    trend = compute_trend(
+        load_runs(history),
+        cusum_k=watch.cusum_k,
+        cusum_h=watch.cusum_h,
+        reference_runs=watch.reference_runs,
+        min_runs=watch.min_runs,
+    )
+    markdown = render_trend_markdown(trend, title="rankgate trend: nightly leak scoring")
+    write_report(out / "trend.md", markdown)
+    say(markdown.rstrip("\n"))
+    say(f"-> exit code {EXIT_FAIL if trend.alarmed else EXIT_PASS} ({'alarm' if trend.alarmed else 'no alarm'})")
+    say("")
+
+    story = (
+        verdicts["candidate_better"] == "pass" and verdicts["candidate_regressing"] == "fail" and trend.alarmed
+    )
+    say(
+        "Demo done: the better candidate passed, the one that regresses in "
+        f"{demo.REGRESSING_DISTRICT} failed, and the nightly watch raised an alarm for the slow decay in "
+        f"{demo.DECAY_DISTRICT}. Reports are in {out}/."
+        if story
+        else "Demo finished, but its story did not hold (see the summaries above): please report this."
+    )
+    raise typer.Exit(EXIT_PASS if story else EXIT_FAIL)
 
 
 # --- the gate: check / adopt / init ------------------------------------------------------------
@@ -377,6 +454,27 @@ def plot_command(
         typer.echo(f"wrote {written}")
 
 
+def _trend_plots(trend: Any, directory: Path) -> list[Path]:
+    """One chart per check and slice: values with interval bars, the bound, alarms marked."""
+    from gate.plots import plot_trend, slugify, trend_points
+
+    directory.mkdir(parents=True, exist_ok=True)
+    images: list[Path] = []
+    for series in trend.series:
+        where = "" if series.slice is None else f", {series.slice.column} = {series.slice.value}"
+        name = series.name + where
+        drift = getattr(series, "drift", None)
+        images += plot_trend(
+            trend_points(series),
+            title=name,
+            path=directory / f"trend-{slugify(name)}",
+            bound=getattr(series, "bound", None),
+            ylabel=series.metric,
+            reference=getattr(drift, "reference", None),
+        )
+    return images
+
+
 @app.command("trend")
 @guarded
 def trend_command(
@@ -390,8 +488,11 @@ def trend_command(
     last: int | None = typer.Option(None, "--last", help="Only the last N runs (after --since)."),
     summary: Path | None = typer.Option(None, "--summary", help="Write the markdown summary to this file."),
     json_out: Path | None = typer.Option(None, "--json", help="Write the trend as JSON to this file."),
+    append: bool = typer.Option(False, "--append", help="Append to --summary instead of replacing it."),
     quiet: bool = typer.Option(False, "--quiet", help="Do not print the summary on stdout."),
     title: str | None = typer.Option(None, "--title", help="Title of the summary."),
+    plots: Path | None = typer.Option(None, "--plots", help="Write one trend chart per check and slice to this directory."),
+    html: Path | None = typer.Option(None, "--html", help="Write one self-contained HTML page (summary and charts)."),
 ) -> None:
     """Watch the run history: every check's series, bound and drift alarms. Exit 1 on an alarm, else 0."""
     from gate.history import load_runs, parse_time
@@ -410,13 +511,24 @@ def trend_command(
             "reference_runs": watch.reference_runs,
             "min_runs": watch.min_runs,
         }
+    if plots is not None or html is not None:
+        _need_plots()
     window_start = parse_time(since, what="--since") if since is not None else None
     trend = compute_trend(load_runs(history, since=window_start, last=last), **settings)
     markdown = render_trend_markdown(trend, title=title)
     if summary is not None:
-        write_report(summary, markdown)
+        write_report(summary, markdown, append=append)
     if json_out is not None:
         write_report(json_out, render_trend_json(trend))
+    if plots is not None or html is not None:
+        import tempfile
+
+        with tempfile.TemporaryDirectory() as scratch:
+            images = _trend_plots(trend, plots if plots is not None else Path(scratch))
+            if html is not None:
+                from gate.report.html import write_html
+
+                write_html(html, title=title or "rankgate trend", summary_markdown=markdown, images=images)
     if not quiet:
         typer.echo(markdown, nl=not markdown.endswith("\n"))
     raise typer.Exit(EXIT_FAIL if trend.alarmed else EXIT_PASS)

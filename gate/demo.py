@@ -123,13 +123,20 @@ def _solve_intercept(risk: NDArray[np.float64], prevalence: float) -> float:
     return 0.5 * (low + high)
 
 
-def generate_scenario(*, seed: int = DEFAULT_SEED, n_segments: int = N_SEGMENTS) -> DemoScenario:
+def generate_scenario(
+    *,
+    seed: int = DEFAULT_SEED,
+    n_segments: int = N_SEGMENTS,
+    production_separation: dict[str, float] | None = None,
+) -> DemoScenario:
     """Generate the demo scenario; the same seed and size always give the same frames.
 
     Parameters
     ----------
     seed : seed of ``numpy.random.default_rng``.
     n_segments : number of pipe segments (rows); at least 100.
+    production_separation : optional separation of the production model per district name
+        (default the same everywhere); the nightly simulation lowers it in one district.
 
     Returns
     -------
@@ -167,7 +174,10 @@ def generate_scenario(*, seed: int = DEFAULT_SEED, n_segments: int = N_SEGMENTS)
         return np.round(_sigmoid(_SCORE_OFFSET + _SCORE_SLOPE * latent), 3)
 
     weak = district == DISTRICTS.index(REGRESSING_DISTRICT)
-    production = model_scores(_SEP_PRODUCTION)
+    sep = np.full(n, _SEP_PRODUCTION)
+    for name, value in (production_separation or {}).items():
+        sep[district == DISTRICTS.index(name)] = value
+    production = model_scores(sep)
     better = model_scores(_SEP_BETTER)
     regressing = model_scores(np.where(weak, _SEP_REGRESSING_WEAK, _SEP_REGRESSING_ELSEWHERE))
 
@@ -224,3 +234,30 @@ def write_scenario(
     for key, frame in scenario.frames().items():
         paths[key] = write_frame(frame, directory / FILE_NAMES[key])
     return paths
+
+
+# --- a simulated month of nightly runs ---------------------------------------------------------
+
+NIGHTS = 30
+DECAY_DISTRICT = "Riverside"
+DECAY_START = 10  # first night of the decay (0-based)
+DECAY_PER_NIGHT = 0.045  # loss of separation per night in DECAY_DISTRICT from DECAY_START on
+
+
+def nightly_scores(night: int, *, seed: int = DEFAULT_SEED, n_segments: int = N_SEGMENTS) -> pd.DataFrame:
+    """The production model's scores on night ``night`` (0-based) of the simulated month.
+
+    Each night a fresh labelled sample of segments is scored (crews confirm leaks daily). From
+    :data:`DECAY_START` on, the model slowly loses separation in :data:`DECAY_DISTRICT` (say a
+    sensor firmware change there), by :data:`DECAY_PER_NIGHT` per night: too slow for any single
+    night to look alarming at first, which is what trend watching is for.
+    """
+    if night < 0:
+        raise ValueError(f"night must be >= 0, got {night}")
+    decay = max(0, night - DECAY_START + 1) * DECAY_PER_NIGHT
+    scenario = generate_scenario(
+        seed=seed * 1000 + 17 + night,
+        n_segments=n_segments,
+        production_separation={DECAY_DISTRICT: _SEP_PRODUCTION - decay},
+    )
+    return scenario.production
