@@ -15,7 +15,7 @@ __all__ = ["__version__", "evaluate"]
 
 def __getattr__(name: str) -> Any:
     if name == "evaluate":
-        from gate.evaluate import evaluate
+        from gate.evaluation import evaluate
 
         return evaluate
     raise AttributeError(f"module 'gate' has no attribute {name!r}")
