@@ -14,9 +14,9 @@ statistic handle ``chunk_size`` replicates at a time.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Literal, TypeVar
 
 import numpy as np
 from numpy.typing import NDArray
@@ -32,7 +32,9 @@ __all__ = [
     "Progress",
     "Statistic",
     "bootstrap",
+    "bootstrap_many",
     "paired_bootstrap",
+    "paired_bootstrap_many",
     "replicate_counts",
 ]
 
@@ -43,6 +45,7 @@ Progress = Callable[[int, int], None]
 """Called with ``(done, total)`` replicates after each chunk."""
 
 Method = Literal["percentile", "bca"]
+_T = TypeVar("_T")
 
 # Elements per (chunk, k) array handed to the statistic: 2**21 float64 = 16 MiB, so a chunk with
 # the statistic's own temporaries stays in the low hundreds of MiB whatever n is.
@@ -279,19 +282,54 @@ def bootstrap(
     >>> round(res.estimate, 4), bool(0.0 <= res.interval().low <= res.estimate)
     (0.8889, True)
     """
+    return bootstrap_many(
+        ranking,
+        {"statistic": statistic},
+        resamples=resamples,
+        seed=seed,
+        confidence=confidence,
+        stratified=stratified,
+        chunk_size=chunk_size,
+        progress=progress,
+    )["statistic"]
+
+
+def bootstrap_many(
+    ranking: Ranking,
+    statistics: Mapping[str, Statistic],
+    *,
+    resamples: int = 2000,
+    seed: int = 0,
+    confidence: float = 0.95,
+    stratified: bool = True,
+    chunk_size: int | None = None,
+    progress: Progress | None = None,
+) -> dict[str, BootstrapResult]:
+    """:func:`bootstrap` of several statistics over the same replicates (drawn once).
+
+    Each entry equals ``bootstrap(ranking, statistics[name], ...)`` with the same options: the
+    replicates are the same, only the drawing and the block sums are shared.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from gate.ranking import rank, roc_auc, average_precision
+    >>> r = rank(np.array([0.9, 0.8, 0.7, 0.6, 0.5, 0.4]), np.array([1, 1, 0, 1, 0, 0], dtype=bool))
+    >>> res = bootstrap_many(r, {"auc": roc_auc, "ap": average_precision}, resamples=50)
+    >>> sorted(res)
+    ['ap', 'auc']
+    """
     b_count, chunk_c = _check_options(resamples, seed, confidence, chunk_size)
+    names, stats = _check_statistics(statistics)
     engine = _Engine([ranking], stratified=stratified)
-    (est,) = engine.estimates(statistic)
-    (reps,) = engine.run(statistic, b_count, seed, chunk_c, progress)
-
-    cache: dict[str, NDArray[np.float64]] = {}
-
-    def jackknife() -> NDArray[np.float64]:
-        if "j" not in cache:
-            (cache["j"],) = engine.jackknife(statistic, seed, chunk_c)
-        return cache["j"]
-
-    return BootstrapResult(est, reps, _sd(reps), float(confidence), jackknife)
+    (est,) = engine.estimates(stats)
+    (reps,) = engine.run(stats, b_count, seed, chunk_c, progress)
+    conf = float(confidence)
+    out: dict[str, BootstrapResult] = {}
+    for i, name in enumerate(names):
+        jk = _lazy(lambda i=i: engine.jackknife(stats[i], seed, chunk_c)[0])
+        out[name] = BootstrapResult(est[i], reps[i], _sd(reps[i]), conf, jk)
+    return out
 
 
 def paired_bootstrap(
@@ -350,40 +388,75 @@ def paired_bootstrap(
     >>> res.delta, res.delta_interval().as_list()
     (0.0, [0.0, 0.0])
     """
+    return paired_bootstrap_many(
+        a,
+        b,
+        {"statistic": statistic},
+        resamples=resamples,
+        seed=seed,
+        confidence=confidence,
+        stratified=stratified,
+        chunk_size=chunk_size,
+        progress=progress,
+    )["statistic"]
+
+
+def paired_bootstrap_many(
+    a: Ranking,
+    b: Ranking,
+    statistics: Mapping[str, Statistic],
+    *,
+    resamples: int = 2000,
+    seed: int = 0,
+    confidence: float = 0.95,
+    stratified: bool = True,
+    chunk_size: int | None = None,
+    progress: Progress | None = None,
+) -> dict[str, PairedBootstrapResult]:
+    """:func:`paired_bootstrap` of several statistics over the same replicates (drawn once).
+
+    Each entry equals ``paired_bootstrap(a, b, statistics[name], ...)`` with the same options.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from gate.ranking import rank, roc_auc, average_precision
+    >>> y = np.array([1, 1, 0, 1, 0, 0], dtype=bool)
+    >>> r = rank(np.array([0.9, 0.8, 0.7, 0.6, 0.5, 0.4]), y)
+    >>> res = paired_bootstrap_many(r, r, {"auc": roc_auc, "ap": average_precision}, resamples=50)
+    >>> res["ap"].delta, res["auc"].se_delta
+    (0.0, 0.0)
+    """
     b_count, chunk_c = _check_options(resamples, seed, confidence, chunk_size)
+    names, stats = _check_statistics(statistics)
     check_same_examples(a, b)
     engine = _Engine([a, b], stratified=stratified)
-    est_a, est_b = engine.estimates(statistic)
-    reps_a, reps_b = engine.run(statistic, b_count, seed, chunk_c, progress)
-    reps_d = reps_a - reps_b
-
-    cache: dict[str, list[NDArray[np.float64]]] = {}
-
-    def jk(i: int) -> Callable[[], NDArray[np.float64]]:
-        def get() -> NDArray[np.float64]:
-            if "j" not in cache:
-                cache["j"] = engine.jackknife(statistic, seed, chunk_c)
-            ja, jb = cache["j"]
-            return (ja, jb, ja - jb)[i]
-
-        return get
-
+    est_a, est_b = engine.estimates(stats)
+    reps_a, reps_b = engine.run(stats, b_count, seed, chunk_c, progress)
     conf = float(confidence)
-    res_a = BootstrapResult(est_a, reps_a, _sd(reps_a), conf, jk(0))
-    res_b = BootstrapResult(est_b, reps_b, _sd(reps_b), conf, jk(1))
-    res_d = BootstrapResult(est_a - est_b, reps_d, _sd(reps_d), conf, jk(2))
-    return PairedBootstrapResult(
-        estimate_a=est_a,
-        estimate_b=est_b,
-        delta=est_a - est_b,
-        replicates_a=reps_a,
-        replicates_b=reps_b,
-        se_delta=res_d.se,
-        confidence=conf,
-        _a=res_a,
-        _b=res_b,
-        _d=res_d,
-    )
+    out: dict[str, PairedBootstrapResult] = {}
+    for i, name in enumerate(names):
+        both = _lazy(lambda i=i: engine.jackknife(stats[i], seed, chunk_c))
+        ra, rb = reps_a[i], reps_b[i]
+        rd = ra - rb
+        res_a = BootstrapResult(est_a[i], ra, _sd(ra), conf, lambda both=both: both()[0])
+        res_b = BootstrapResult(est_b[i], rb, _sd(rb), conf, lambda both=both: both()[1])
+        res_d = BootstrapResult(
+            est_a[i] - est_b[i], rd, _sd(rd), conf, lambda both=both: both()[0] - both()[1]
+        )
+        out[name] = PairedBootstrapResult(
+            estimate_a=est_a[i],
+            estimate_b=est_b[i],
+            delta=est_a[i] - est_b[i],
+            replicates_a=ra,
+            replicates_b=rb,
+            se_delta=res_d.se,
+            confidence=conf,
+            _a=res_a,
+            _b=res_b,
+            _d=res_d,
+        )
+    return out
 
 
 def replicate_counts(
@@ -407,69 +480,75 @@ def replicate_counts(
     engine = _Engine([ranking], stratified=stratified)
     rng = np.random.default_rng(seed)
     out = np.zeros((b_count, ranking.n), dtype=np.int64)
-    ex_pos = ranking.order[engine.pos_sorted]
-    ex_neg = ranking.order[engine.neg_sorted]
     for start in range(0, b_count, 64):
         stop = min(b_count, start + 64)
-        cp, cn = engine.draw(rng, stop - start)
-        out[start:stop, ex_pos] = cp
-        out[start:stop, ex_neg] = cn
+        out[start:stop, engine.example_of_slot] = engine.draw(rng, stop - start)
     return out
 
 
 # --- the engine ------------------------------------------------------------------------------
+
+# Above this many examples the block sums of a chunk are computed replicate by replicate (no
+# (chunk, n) index temporaries); below it, in one bincount over the whole chunk. The results are
+# identical: each block receives the same additions in the same order.
+_ROW_BY_ROW = 1 << 16
 
 
 @dataclass(frozen=True, eq=False)
 class _Model:
     thresholds: NDArray[np.float64]
     k: int
-    block_pos: NDArray[np.intp]  # tie block of each positive, positives listed in the reference order
-    block_neg: NDArray[np.intp]
-    weight_pos: NDArray[np.float64] | None  # table weights of those positives; None when all 1
-    weight_neg: NDArray[np.float64] | None
+    # For each slot (example), its tie block in this model: block b for a positive, k + b for a
+    # negative, so one bincount of length 2k yields the positives' and the negatives' sums.
+    slot_bin: NDArray[np.intp]
+    slot_weight: NDArray[np.float64] | None  # the table weight of each slot; None when all 1
+    untied: bool  # every block holds one example: the block sums are a plain scatter
 
 
 class _Engine:
     """Precomputed block indices of one or more rankings of the same examples.
 
-    The examples are listed in the first ranking's sorted order (the reference), split by class;
-    a replicate is a pair of count vectors over that listing.
+    The examples are listed as *slots*: the positives in the first ranking's sorted order, then
+    the negatives likewise. A replicate is a vector of counts over the slots.
     """
 
     def __init__(self, rankings: Sequence[Ranking], *, stratified: bool) -> None:
         ref = rankings[0]
         self.stratified = bool(stratified)
         labels = ref.labels_sorted
-        self.pos_sorted = np.flatnonzero(labels)
-        self.neg_sorted = np.flatnonzero(~labels)
-        self.m = int(self.pos_sorted.size)
-        self.n_neg = int(self.neg_sorted.size)
+        pos_sorted = np.flatnonzero(labels)
+        neg_sorted = np.flatnonzero(~labels)
+        self.m = int(pos_sorted.size)
+        self.n_neg = int(neg_sorted.size)
         if self.m == 0 or self.n_neg == 0:
             raise UndefinedMetricError(
                 f"bootstrap needs both classes, got {self.m} positives and {self.n_neg} negatives"
             )
-        ex_pos = ref.order[self.pos_sorted]
-        ex_neg = ref.order[self.neg_sorted]
+        slot_sorted = np.concatenate([pos_sorted, neg_sorted])  # position in ref's sorted order
+        self.example_of_slot = ref.order[slot_sorted]
+        neg_slot = np.zeros(self.m + self.n_neg, dtype=bool)
+        neg_slot[self.m :] = True
         self.models: list[_Model] = []
         for r in rankings:
             if r is ref:
-                block_sorted = np.repeat(np.arange(r.starts.size), np.diff(r.starts, append=r.n))
-                bp, bn = block_sorted[self.pos_sorted], block_sorted[self.neg_sorted]
-                wp, wn = r.weights_sorted[self.pos_sorted], r.weights_sorted[self.neg_sorted]
+                block_sorted = np.repeat(np.arange(r.k), r.block_sizes)
+                block = block_sorted[slot_sorted]
+                weight = np.asarray(r.weights_sorted)[slot_sorted]
             else:
-                bp, bn = r.block_of[ex_pos], r.block_of[ex_neg]
+                block = r.block_of[self.example_of_slot]
                 w = np.empty(r.n, dtype=np.float64)
                 w[r.order] = r.weights_sorted
-                wp, wn = w[ex_pos], w[ex_neg]
-            unit = bool(np.all(wp == 1.0) and np.all(wn == 1.0))
-            self.models.append(
-                _Model(r.thresholds, int(r.starts.size), bp, bn, None if unit else wp, None if unit else wn)
-            )
+                weight = w[self.example_of_slot]
+            slot_bin = block + np.where(neg_slot, r.k, 0)
+            unit = bool(np.all(weight == 1.0))
+            self.models.append(_Model(r.thresholds, r.k, slot_bin, None if unit else weight, r.k == r.n))
 
-    def draw(self, rng: np.random.Generator, c: int) -> tuple[NDArray[np.int64], NDArray[np.int64]]:
-        """Counts of ``c`` consecutive replicates, ``(c, m)`` for the positives and ``(c, n)`` for
-        the negatives (reference listing).
+    @property
+    def total(self) -> int:
+        return self.m + self.n_neg
+
+    def draw(self, rng: np.random.Generator, c: int) -> NDArray[np.int64]:
+        """Slot counts ``(c, m + n)`` of ``c`` consecutive replicates.
 
         Each replicate takes ``m + n`` uniform doubles from ``rng`` (the positives' draws, then
         the negatives'), and index ``floor(u * size)``. A double consumes exactly one 64-bit word
@@ -485,94 +564,93 @@ class _Engine:
             u[:, :m] *= m
             u[:, m:] *= nn
             idx = u.astype(np.intp)
-            idx[:, m:] += m  # negatives' slots follow the positives' in one count vector
+            idx[:, m:] += m  # the negatives' slots follow the positives'
         else:
             u *= total
             idx = u.astype(np.intp)
         del u
+        if c == 1:
+            return np.bincount(idx[0], minlength=total)[None, :]
         idx += (np.arange(c, dtype=np.intp) * total)[:, None]
-        counts = np.bincount(idx.ravel(), minlength=c * total).reshape(c, total)
-        return counts[:, :m], counts[:, m:]
+        return np.bincount(idx.ravel(), minlength=c * total).reshape(c, total)
 
-    def blocks(
-        self, mod: _Model, cp: NDArray[np.int64], cn: NDArray[np.int64]
-    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-        """``(c, k)`` replicate block weights of one model from the replicates' counts."""
-        c = cp.shape[0]
-        offsets = (np.arange(c, dtype=np.intp) * mod.k)[:, None]
-        out = []
-        for counts, block, weight in ((cp, mod.block_pos, mod.weight_pos), (cn, mod.block_neg, mod.weight_neg)):
-            w = counts if weight is None else counts * weight
-            sums = np.bincount((block + offsets).ravel(), weights=w.ravel(), minlength=c * mod.k)
-            out.append(sums.reshape(c, mod.k))
-        return out[0], out[1]
+    def blocks(self, mod: _Model, counts: NDArray[np.int64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """``(c, k)`` positive and negative block weights of one model from slot counts."""
+        c = counts.shape[0]
+        k2 = 2 * mod.k
+        w = counts if mod.slot_weight is None else counts * mod.slot_weight
+        if mod.untied:
+            # One example per block: each bin receives one value, as bincount would give it.
+            sums = np.zeros((c, k2), dtype=np.float64)
+            sums[:, mod.slot_bin] = w
+        elif self.total >= _ROW_BY_ROW or c == 1:
+            sums = np.empty((c, k2), dtype=np.float64)
+            for j in range(c):
+                sums[j] = np.bincount(mod.slot_bin, weights=w[j], minlength=k2)
+        else:
+            idx = mod.slot_bin + (np.arange(c, dtype=np.intp) * k2)[:, None]
+            sums = np.bincount(idx.ravel(), weights=w.ravel(), minlength=c * k2).reshape(c, k2)
+        return sums[:, : mod.k], sums[:, mod.k :]
 
-    def estimates(self, statistic: Statistic) -> list[float]:
+    def estimates(self, statistics: Sequence[Statistic]) -> list[list[float]]:
+        """``[model][statistic]`` values on the data as given (every count 1)."""
+        ones = np.ones((1, self.total), dtype=np.int64)
         out = []
         for mod in self.models:
-            wp = np.ones(self.m) if mod.weight_pos is None else mod.weight_pos
-            wn = np.ones(self.n_neg) if mod.weight_neg is None else mod.weight_neg
-            pos = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
-            neg = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
-            out.append(float(_evaluate(statistic, mod.thresholds, pos[None, :], neg[None, :], "the data")[0]))
+            pos, neg = self.blocks(mod, ones)
+            out.append([float(_evaluate(f, mod.thresholds, pos, neg, "the data")[0]) for f in statistics])
         return out
 
     def run(
         self,
-        statistic: Statistic,
+        statistics: Sequence[Statistic],
         resamples: int,
         seed: int,
         chunk_size: int | None,
         progress: Progress | None,
-    ) -> list[NDArray[np.float64]]:
+    ) -> list[list[NDArray[np.float64]]]:
+        """``[model][statistic]`` replicate arrays ``(resamples,)``."""
         rng = np.random.default_rng(seed)
         k_max = max(mod.k for mod in self.models)
-        chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // max(k_max, self.m + self.n_neg)))
-        out = [np.empty(resamples, dtype=np.float64) for _ in self.models]
+        chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // max(k_max, self.total)))
+        out = [[np.empty(resamples, dtype=np.float64) for _ in statistics] for _ in self.models]
         for start in range(0, resamples, chunk):
             stop = min(resamples, start + chunk)
-            cp, cn = self.draw(rng, stop - start)
+            counts = self.draw(rng, stop - start)
+            where = f"bootstrap replicates {start + 1}-{stop}"
             for mod, res in zip(self.models, out):
-                pos, neg = self.blocks(mod, cp, cn)
-                where = f"bootstrap replicates {start + 1}-{stop}"
-                res[start:stop] = _evaluate(statistic, mod.thresholds, pos, neg, where)
+                pos, neg = self.blocks(mod, counts)
+                for f, arr in zip(statistics, res):
+                    arr[start:stop] = _evaluate(f, mod.thresholds, pos, neg, where)
             if progress is not None:
                 progress(stop, resamples)
         return out
 
     def jackknife(self, statistic: Statistic, seed: int, chunk_size: int | None) -> list[NDArray[np.float64]]:
         """Leave-one-group-out values of the statistic for every model (see bootstrap Notes)."""
-        m, nn = self.m, self.n_neg
-        total = m + nn
+        m, nn, total = self.m, self.n_neg, self.total
         groups = min(total, _JACKKNIFE_GROUPS)
         rng = np.random.default_rng([seed, 0x4A4B])  # a stream of its own: replicates unaffected
-        # Deal shuffled positives, then shuffled negatives, to the groups in turn.
-        gp = rng.permutation(m) % groups
-        gn = (m + rng.permutation(nn)) % groups
-        order_p = np.argsort(gp, kind="stable")
-        order_n = np.argsort(gn, kind="stable")
-        bounds_p = np.searchsorted(gp[order_p], np.arange(groups + 1))
-        bounds_n = np.searchsorted(gn[order_n], np.arange(groups + 1))
+        # Deal the shuffled positives, then the shuffled negatives, to the groups in turn.
+        group = np.concatenate([rng.permutation(m), m + rng.permutation(nn)]) % groups
+        members = np.argsort(group, kind="stable")
+        bounds = np.searchsorted(group[members], np.arange(groups + 1))
         k_max = max(mod.k for mod in self.models)
         chunk = chunk_size or max(1, min(groups, _CHUNK_ELEMENTS // k_max))
         out = [np.empty(groups, dtype=np.float64) for _ in self.models]
         for mod, res in zip(self.models, out):
-            wp = np.ones(m) if mod.weight_pos is None else mod.weight_pos
-            wn = np.ones(nn) if mod.weight_neg is None else mod.weight_neg
-            full_pos = np.bincount(mod.block_pos, weights=wp, minlength=mod.k)
-            full_neg = np.bincount(mod.block_neg, weights=wn, minlength=mod.k)
+            k2 = 2 * mod.k
+            w = np.ones(total) if mod.slot_weight is None else mod.slot_weight
+            full = np.bincount(mod.slot_bin, weights=w, minlength=k2)
             for start in range(0, groups, chunk):
                 stop = min(groups, start + chunk)
-                pos = np.empty((stop - start, mod.k), dtype=np.float64)
-                neg = np.empty((stop - start, mod.k), dtype=np.float64)
+                sums = np.empty((stop - start, k2), dtype=np.float64)
                 for j, g in enumerate(range(start, stop)):
-                    ip = order_p[bounds_p[g] : bounds_p[g + 1]]
-                    ineg = order_n[bounds_n[g] : bounds_n[g + 1]]
+                    sl = members[bounds[g] : bounds[g + 1]]
                     # Rounding in the subtraction can leave -1e-17 where a block is emptied.
-                    pos[j] = np.maximum(full_pos - np.bincount(mod.block_pos[ip], wp[ip], mod.k), 0.0)
-                    neg[j] = np.maximum(full_neg - np.bincount(mod.block_neg[ineg], wn[ineg], mod.k), 0.0)
+                    np.maximum(full - np.bincount(mod.slot_bin[sl], w[sl], k2), 0.0, out=sums[j])
                 where = f"jackknife groups {start + 1}-{stop}"
-                res[start:stop] = _evaluate(statistic, mod.thresholds, pos, neg, where)
+                res[start:stop] = _evaluate(statistic, mod.thresholds, sums[:, : mod.k], sums[:, mod.k :], where)
         return out
 
 
@@ -611,6 +689,27 @@ def _check_options(
     ):
         raise ValueError(f"chunk_size must be a positive integer or None, got {chunk_size!r}")
     return int(resamples), None if chunk_size is None else int(chunk_size)
+
+
+def _check_statistics(statistics: Mapping[str, Statistic]) -> tuple[list[str], list[Statistic]]:
+    if not isinstance(statistics, Mapping) or not statistics:
+        raise ValueError("statistics must be a non-empty mapping of names to callables")
+    for name, f in statistics.items():
+        if not callable(f):
+            raise ValueError(f"statistics[{name!r}] must be callable, got {type(f).__name__}")
+    return list(statistics), list(statistics.values())
+
+
+def _lazy(fn: Callable[[], _T]) -> Callable[[], _T]:
+    """``fn`` evaluated on the first call only (the BCa jackknife, which many results never need)."""
+    cache: list[_T] = []
+
+    def get() -> _T:
+        if not cache:
+            cache.append(fn())
+        return cache[0]
+
+    return get
 
 
 def _sd(x: NDArray[np.float64]) -> float:

@@ -8,7 +8,14 @@ from sklearn.metrics import average_precision_score, roc_auc_score
 
 from gate.errors import UndefinedMetricError
 from gate.ranking import TieBlocks, average_precision, rank, recall_at_fpr_values, roc_auc
-from gate.stats import bootstrap, delong, paired_bootstrap, replicate_counts
+from gate.stats import (
+    bootstrap,
+    bootstrap_many,
+    delong,
+    paired_bootstrap,
+    paired_bootstrap_many,
+    replicate_counts,
+)
 
 
 def _data(seed: int = 0, n: int = 120, prevalence: float = 0.3) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -115,6 +122,36 @@ def test_paired_uses_the_draws_of_the_single_bootstrap_of_a() -> None:
     np.testing.assert_array_equal(paired.replicates_a, single.replicates)
     counts = replicate_counts(a, resamples=40, seed=2)
     np.testing.assert_allclose(paired.replicates_b, roc_auc(b.blocks(counts.astype(float))), atol=1e-14)
+
+
+def test_many_statistics_share_replicates_and_equal_single_runs() -> None:
+    s1, s2, y = _data(23)
+    a, b = rank(s1, y), rank(s2, y)
+    stats = {"auc": roc_auc, "ap": average_precision, "top": _positive_share_top}
+    many = paired_bootstrap_many(a, b, stats, resamples=60, seed=4, chunk_size=16)
+    for name, f in stats.items():
+        one = paired_bootstrap(a, b, f, resamples=60, seed=4)
+        np.testing.assert_array_equal(many[name].replicates_a, one.replicates_a)
+        np.testing.assert_array_equal(many[name].replicates_b, one.replicates_b)
+        assert many[name].delta_interval(method="bca") == one.delta_interval(method="bca")
+    single = bootstrap_many(a, stats, resamples=60, seed=4)
+    np.testing.assert_array_equal(single["top"].replicates, many["top"].replicates_a)
+    with pytest.raises(ValueError, match="non-empty mapping"):
+        bootstrap_many(a, {}, resamples=10)
+    with pytest.raises(ValueError, match=r"statistics\['x'\] must be callable"):
+        bootstrap_many(a, {"x": 3}, resamples=10)  # type: ignore[dict-item]
+
+
+def test_untied_and_tied_rankings_give_the_same_replicate_blocks() -> None:
+    # Continuous scores (one example per block: the scatter path) against the ranking's own sums.
+    rng = np.random.default_rng(24)
+    y = rng.random(300) < 0.3
+    s = rng.normal(size=300) + y
+    r = rank(s, y)
+    assert r.k == r.n
+    counts = replicate_counts(r, resamples=12, seed=8)
+    res = bootstrap(r, average_precision, resamples=12, seed=8)
+    np.testing.assert_allclose(res.replicates, average_precision(r.blocks(counts.astype(float))), atol=1e-14)
 
 
 # --- results ----------------------------------------------------------------------------------
