@@ -5,7 +5,9 @@ cumulative sums and no vectorised tricks: a loop over candidate thresholds, or e
 (positive, negative) pair. Exact ``Fraction`` arithmetic where the inputs are integers or
 integer-weighted, so ties and collinearity are decided exactly.
 
-Conventions as in gate.ranking: flagged = score >= threshold; +inf flags nothing.
+Conventions as in gate.ranking: flagged = score >= threshold; +inf flags nothing. A rate
+parameter (fpr cap, recall floor, max_fpr) means the decimal it is written as: 0.9 is 9/10, not
+the binary double nearest to it (gate.ranking gets this by comparing correctly rounded quotients).
 """
 
 from __future__ import annotations
@@ -15,6 +17,10 @@ from fractions import Fraction
 from typing import Any
 
 import numpy as np
+
+
+def _param(x: float) -> Fraction:
+    return Fraction(repr(float(x)))
 
 
 def _rows(scores: Any, labels: Any, weights: Any = None) -> list[tuple[float, bool, Fraction]]:
@@ -102,7 +108,7 @@ def average_precision(scores: Any, labels: Any, weights: Any = None) -> Fraction
 
 def partial_auc_raw(scores: Any, labels: Any, weights: Any, max_fpr: float) -> Fraction:
     """Area under the ROC polyline from FPR 0 to max_fpr, each segment integrated exactly."""
-    m = Fraction(max_fpr)
+    m = _param(max_fpr)
     pts = roc_points(scores, labels, weights)
     area = Fraction(0)
     for (_, f0, t0), (_, f1, t1) in zip(pts[:-1], pts[1:], strict=True):
@@ -115,7 +121,7 @@ def partial_auc_raw(scores: Any, labels: Any, weights: Any, max_fpr: float) -> F
 
 
 def mcclish(raw: Fraction, max_fpr: float) -> Fraction:
-    m = Fraction(max_fpr)
+    m = _param(max_fpr)
     lo = m * m / 2
     return (1 + (raw - lo) / (m - lo)) / 2
 
@@ -126,7 +132,7 @@ def recall_at_fpr(scores: Any, labels: Any, weights: Any, alpha: float) -> tuple
     for t in candidate_thresholds(scores):  # descending: the first of equals is the highest
         tp, fp, tn, fn = confusion(scores, labels, weights, t)
         fpr, recall = fp / (fp + tn), tp / (tp + fn)
-        if fpr <= Fraction(alpha) and (best is None or recall > best[1]):
+        if fpr <= _param(alpha) and (best is None or recall > best[1]):
             best = (t, recall, fpr)
     assert best is not None
     return best
@@ -141,7 +147,7 @@ def precision_at_recall(scores: Any, labels: Any, weights: Any, r: float) -> tup
         if tp + fp == 0:
             continue
         recall, precision = tp / (tp + fn), tp / (tp + fp)
-        if recall >= Fraction(r) and (best is None or (precision, recall) > (best[1], best[2])):
+        if recall >= _param(r) and (best is None or (precision, recall) > (best[1], best[2])):
             best = (t, precision, recall)
     assert best is not None
     return best

@@ -259,11 +259,14 @@ def test_row_order_does_not_matter(data, rnd) -> None:
 def test_metrics_stay_in_range(data) -> None:
     s, y, w = data
     b = rk.tie_blocks(s, y, w)
-    for v in point_metrics(b):
-        if not math.isinf(v):
-            assert 0.0 <= v <= max(1.0, float(np.sum(b.pos) * np.sum(b.neg)))
     for v in (rk.roc_auc(b), rk.average_precision(b), rk.hull_auc(b)):
         assert 0.0 <= v <= 1.0
+    pairs = float(np.sum(b.pos) * np.sum(b.neg))
+    assert 0.0 <= rk.discordant_pairs(b) <= pairs * (1 + 1e-12)
+    for cfp, cfn in COSTS:
+        cost = rk.optimal_cost(b, cost_fp=cfp, cost_fn=cfn).cost
+        assert 0.0 <= cost <= max(cfp, cfn) * (1 + 1e-12)
+        assert cost <= rk.expected_cost(b, threshold=math.inf, cost_fp=cfp, cost_fn=cfn) * (1 + 1e-12)
     for m in MAX_FPRS:
         pa = rk.partial_auc(b, max_fpr=m)
         assert 0.0 <= pa.raw <= m and 0.0 <= pa.standardized <= 1.0

@@ -295,6 +295,12 @@ def test_precision_at_recall_toy() -> None:
     assert precision_at_recall_values(TOY, recall=1.0) == 0.5
 
 
+def test_precision_at_recall_floor_equal_to_an_attainable_fraction() -> None:
+    # recall 9/10 at the top block meets a floor written as 0.9
+    op = precision_at_recall(tb([1, 0], [9, 1], [0, 1]), recall=0.9)
+    assert op.threshold == 1.0 and op.precision == 1.0
+
+
 def test_precision_at_recall_tie_rule_highest_recall() -> None:
     # Precision 1/2 at recall 1/3 (threshold 3) and at recall 1 (threshold 1): recall 1 wins.
     b = tb([3, 2, 1], [1, 0, 2], [1, 2, 0])  # cumulative (TP, FP): (1, 1), (1, 3), (3, 3)
