@@ -249,7 +249,10 @@ def _open(path: str | os.PathLike[str], *, create: bool) -> tuple[sqlite3.Connec
     except HistoryError:
         conn.close()
         raise
-    except sqlite3.DatabaseError as exc:
+    except sqlite3.OperationalError as exc:  # locked past the timeout, read-only, disk full ...
+        conn.close()
+        raise HistoryError(f"history {target}: cannot use the database ({exc})") from None
+    except sqlite3.DatabaseError as exc:  # not a database, or a damaged one
         conn.close()
         raise HistoryError(f"history {target}: not a readable SQLite database ({exc})") from None
     return conn, target
