@@ -169,7 +169,7 @@ class Ranking:
         if weights is None:
             if self.unit_weights:
                 # Counting, not summing: the positives per block, the rest are negatives.
-                pos = np.add.reduceat(self.labels_sorted, self.starts, dtype=np.float64)
+                pos = _count_per_block(self.labels_sorted, self.starts).astype(np.float64)
                 neg = self.block_sizes.astype(np.float64) - pos
                 return TieBlocks(self.thresholds, pos, neg)
             w = np.array(self.weights_sorted, dtype=np.float64)
@@ -184,6 +184,24 @@ class Ranking:
         np.subtract(w, wpos, out=w)
         neg = np.add.reduceat(w, self.starts, axis=-1)
         return TieBlocks(self.thresholds, pos, neg)
+
+
+def _count_per_block(flags: NDArray[np.bool_], starts: NDArray[np.intp]) -> NDArray[np.int64]:
+    """Number of True flags in each block (blocks start at ``starts`` in ``flags``), chunk by chunk
+    so that no (n,) integer temporary is made."""
+    n, k = flags.shape[0], starts.shape[0]
+    before = np.empty(k + 1, dtype=np.int64)  # flags strictly before each block start, then the total
+    carry = 0
+    for i in range(0, n, _BLOCK_CHUNK):
+        j = min(n, i + _BLOCK_CHUNK)
+        c = np.cumsum(flags[i:j], dtype=np.int64)
+        lo = int(np.searchsorted(starts, i, side="left"))
+        hi = int(np.searchsorted(starts, j, side="left"))
+        local = starts[lo:hi] - i
+        before[lo:hi] = carry + np.where(local > 0, c[np.maximum(local - 1, 0)], 0)
+        carry += int(c[-1])
+    before[k] = carry
+    return np.diff(before)
 
 
 def _descending_keys(x: NDArray[np.float64]) -> NDArray[np.uint64]:

@@ -124,6 +124,26 @@ def test_rank_many_rows_both_paths_consistent() -> None:
         np.testing.assert_array_equal(r.block_sizes, np.unique(s, return_counts=True)[1][::-1])
 
 
+@pytest.mark.parametrize("decimals", [0, 1, 5])
+def test_block_counts_across_chunk_boundaries(decimals) -> None:
+    # More rows than one chunk of the block-index / counting loops, blocks spanning chunks.
+    rng = np.random.default_rng(decimals)
+    n = rk._BLOCK_CHUNK + 1234
+    s = np.round(rng.random(n), decimals)
+    y = rng.random(n) < 0.4
+    r = rank(s, y)
+    b = r.blocks()
+    values, inverse = np.unique(s, return_inverse=True)
+    want_pos = np.bincount(inverse, weights=y, minlength=values.size)[::-1]
+    want_all = np.bincount(inverse, minlength=values.size)[::-1]
+    np.testing.assert_array_equal(b.pos, want_pos)
+    np.testing.assert_array_equal(b.pos + b.neg, want_all)
+    np.testing.assert_array_equal(r.thresholds[r.block_of], s)
+    weighted = r.blocks(np.ones(n))
+    np.testing.assert_array_equal(weighted.pos, b.pos)
+    np.testing.assert_array_equal(weighted.neg, b.neg)
+
+
 @pytest.mark.parametrize(
     ("scores", "labels", "weights", "match"),
     [
