@@ -209,8 +209,14 @@ def delong(ranking: Ranking) -> AucEstimate:
     >>> est.value, est.variance
     (0.75, 0.125)
     """
-    comp = _components(ranking)
-    return AucEstimate(comp.auc, comp.var10 / comp.m + comp.var01 / comp.n, comp.m, comp.n)
+    x, y, _, _ = _own_placements(ranking)
+    m, n = x.size, y.size
+    auc = float(x.mean())
+    x -= auc
+    y -= y.mean()
+    var10 = float(np.dot(x, x)) / (m - 1)
+    var01 = float(np.dot(y, y)) / (n - 1)
+    return AucEstimate(auc, var10 / m + var01 / n, m, n)
 
 
 def paired_delong(a: Ranking, b: Ranking) -> PairedAuc:
@@ -261,32 +267,37 @@ def paired_delong(a: Ranking, b: Ranking) -> PairedAuc:
     >>> res.delta, res.se, res.p_value
     (0.0, 0.0, 1.0)
     """
-    ca = _components(a)
-    cb = _components(b)
-    check_same_examples(a, b)
-    # Work in a's sorted order: a's placements are a monotone gather, b's need one permutation
-    # (b's block of each example, listed in a's order). np.take: faster than fancy indexing.
-    labels = a.labels_sorted
-    pos_idx = np.flatnonzero(labels)
-    neg_idx = np.flatnonzero(~labels)
+    xa, ya, pos_idx, neg_idx = _own_placements(a)
+    pb = _placements(b)
+    m, n = xa.size, ya.size
+    if a.n != b.n or pb.m != m:
+        check_same_examples(a, b)  # raises, naming what differs
+    # Work in a's sorted order; b's placements need b's block of each example listed in a's
+    # order (one random gather). np.take: faster than fancy indexing.
     block_b = np.take(b.block_of, a.order)
-    if a.starts.size == a.n:  # no ties in a: block index = sorted position
-        pa, na = pos_idx, neg_idx
+    if b.k == b.n:
+        # One example per block in b, so block index = position in b's order. Equal class sizes
+        # and every positive of a positive in b means the same labels everywhere.
+        if not np.all(np.take(b.labels_sorted, np.take(block_b, pos_idx))):
+            check_same_examples(a, b)  # raises with the count
     else:
-        block_a = np.repeat(np.arange(a.starts.size), np.diff(a.starts, append=a.n))
-        pa, na = np.take(block_a, pos_idx), np.take(block_a, neg_idx)
-    xa = np.take(ca.v10, pa) - ca.auc
-    xb = np.take(cb.v10, np.take(block_b, pos_idx)) - cb.auc
-    ya = np.take(ca.v01, na) - ca.auc
-    yb = np.take(cb.v01, np.take(block_b, neg_idx)) - cb.auc
-    m, n = ca.m, ca.n
+        check_same_examples(a, b)
+    xb, yb = pb.at(np.take(block_b, pos_idx), np.take(block_b, neg_idx))
+    del block_b
+    auc_a, auc_b = float(xa.mean()), float(xb.mean())
+    xa -= auc_a
+    xb -= auc_b
+    ya -= ya.mean()
+    yb -= yb.mean()
+    var10_a, var10_b = float(np.dot(xa, xa)) / (m - 1), float(np.dot(xb, xb)) / (m - 1)
+    var01_a, var01_b = float(np.dot(ya, ya)) / (n - 1), float(np.dot(yb, yb)) / (n - 1)
     cov = float(np.dot(xa, xb)) / (m - 1) / m + float(np.dot(ya, yb)) / (n - 1) / n
     xa -= xb
     ya -= yb
     var_delta = float(np.dot(xa, xa)) / (m - 1) / m + float(np.dot(ya, ya)) / (n - 1) / n
-    var_a = ca.var10 / m + ca.var01 / n
-    var_b = cb.var10 / m + cb.var01 / n
-    delta = ca.auc - cb.auc
+    var_a = var10_a / m + var01_a / n
+    var_b = var10_b / m + var01_b / n
+    delta = auc_a - auc_b
     se = math.sqrt(max(var_delta, 0.0))
     if se > 0.0:
         z = delta / se
@@ -296,8 +307,8 @@ def paired_delong(a: Ranking, b: Ranking) -> PairedAuc:
         z = math.copysign(math.inf, delta)
     p = 2.0 * norm_cdf(-abs(z))
     return PairedAuc(
-        auc_a=ca.auc,
-        auc_b=cb.auc,
+        auc_a=auc_a,
+        auc_b=auc_b,
         var_a=var_a,
         var_b=var_b,
         cov=cov,
@@ -311,52 +322,101 @@ def paired_delong(a: Ranking, b: Ranking) -> PairedAuc:
 
 
 @dataclass(frozen=True, eq=False)
-class _Components:
-    auc: float
-    v10: NDArray[np.float64]  # positive placement, per tie block
-    v01: NDArray[np.float64]  # negative placement, per tie block
-    var10: float  # sample variance (ddof=1) of the positive placements
-    var01: float
+class _Placements:
+    """Per-block placements of one ranking. ``v10[b]`` is meaningful where block b holds
+    positives, ``v01[b]`` where it holds negatives."""
+
+    v10: NDArray[np.float64]  # (negatives strictly below + half the negatives in the block) / n
+    v01: NDArray[np.float64]  # (positives strictly above + half the positives in the block) / m
     m: int
     n: int
 
+    def at(
+        self, pos_blocks: NDArray[np.intp], neg_blocks: NDArray[np.intp]
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """Placements of the positives and negatives sitting in the given blocks."""
+        return np.take(self.v10, pos_blocks), np.take(self.v01, neg_blocks)
 
-def _components(r: Ranking) -> _Components:
-    w = r.weights_sorted
-    if w.size and not np.all(w == w[0]):
-        raise UndefinedMetricError(
-            "DeLong's variance counts examples and is undefined for unequal example weights; "
-            "use the bootstrap for weighted tables"
-        )
-    # Counts (not weights), as exact integers: cumulative positives at the end of each block.
-    cum_pos = np.cumsum(r.labels_sorted, dtype=np.int64)
-    if r.starts.size == r.n:  # no ties: every block is one example
-        ends = np.arange(1, r.n + 1)
-    else:
-        ends = np.empty(r.starts.size, dtype=np.int64)
-        ends[:-1] = r.starts[1:]
-        ends[-1] = r.n
-        cum_pos = np.take(cum_pos, ends - 1)
-    cum_neg = ends - cum_pos
+
+def _placements(r: Ranking) -> _Placements:
+    _check_unweighted(r)
+    # Cumulative positives in float64: counts are integers below 2**53, so exact.
+    cum_pos = np.cumsum(r.labels_sorted, dtype=np.float64)
+    total = r.n
     m = int(cum_pos[-1])
-    n = int(cum_neg[-1])
+    n = total - m
+    _check_counts(m, n)
+    if r.k == total:
+        # One example per block: a positive's block holds no negative and vice versa. At sorted
+        # position i, a negative has cum_pos[i] positives above it; a positive has
+        # n - (i + 1 - cum_pos[i]) negatives below it.
+        v01 = cum_pos / m
+        v10 = cum_pos
+        v10 -= np.arange(1, total + 1, dtype=np.float64)
+        v10 += n
+        v10 /= n
+        return _Placements(v10, v01, m, n)
+    ends = np.empty(r.k, dtype=np.intp)
+    ends[:-1] = r.starts[1:]
+    ends[-1] = total
+    cum_pos = np.take(cum_pos, ends - 1)  # positives in this block and above
+    cum_neg = ends - cum_pos
+    pos = np.diff(cum_pos, prepend=0.0)
+    neg = np.diff(cum_neg, prepend=0.0)
+    v10 = ((n - cum_neg) + 0.5 * neg) / n
+    v01 = (cum_pos - 0.5 * pos) / m
+    return _Placements(v10, v01, m, n)
+
+
+def _own_placements(
+    r: Ranking,
+) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.intp], NDArray[np.intp]]:
+    """Placements of the positives and the negatives listed in r's sorted order, and their
+    sorted positions."""
+    pos_idx = np.flatnonzero(r.labels_sorted)
+    neg_idx = np.flatnonzero(~r.labels_sorted)
+    if r.k != r.n:
+        pl = _placements(r)
+        x, y = pl.at(_sorted_blocks(r, pos_idx), _sorted_blocks(r, neg_idx))
+        return x, y, pos_idx, neg_idx
+    _check_unweighted(r)
+    m, n = pos_idx.size, neg_idx.size
+    _check_counts(m, n)
+    # One example per block. The j-th positive (0-based) at sorted position i has i - j
+    # negatives above it, so n - i + j below; the j-th negative at position i has i - j
+    # positives above it.
+    x = np.arange(m, dtype=np.float64)
+    x -= pos_idx
+    x += n
+    x /= n
+    y = neg_idx.astype(np.float64)
+    y -= np.arange(n, dtype=np.float64)
+    y /= m
+    return x, y, pos_idx, neg_idx
+
+
+def _check_unweighted(r: Ranking) -> None:
+    if not r.unit_weights:
+        w = np.asarray(r.weights_sorted)
+        if w.size and not np.all(w == w[0]):
+            raise UndefinedMetricError(
+                "DeLong's variance counts examples and is undefined for unequal example weights; "
+                "use the bootstrap for weighted tables"
+            )
+
+
+def _check_counts(m: int, n: int) -> None:
     if m < 2 or n < 2:
         raise UndefinedMetricError(
             f"DeLong's variance needs at least 2 positives and 2 negatives, got {m} positives and {n} negatives"
         )
-    pos = np.diff(cum_pos, prepend=0).astype(np.float64)
-    neg = np.diff(cum_neg, prepend=0).astype(np.float64)
-    # Placements: negatives strictly below the block plus half those in it, and likewise.
-    v10 = ((n - cum_neg) + 0.5 * neg) / n
-    v01 = (cum_pos - 0.5 * pos) / m
-    auc = float(np.dot(pos, v10)) / m
-    d = v10 - auc
-    d *= d
-    var10 = float(np.dot(pos, d)) / (m - 1)
-    d = v01 - auc
-    d *= d
-    var01 = float(np.dot(neg, d)) / (n - 1)
-    return _Components(auc, v10, v01, var10, var01, m, n)
+
+
+def _sorted_blocks(r: Ranking, positions: NDArray[np.intp]) -> NDArray[np.intp]:
+    """Block index of the examples at the given sorted positions."""
+    if r.k == r.n:
+        return positions
+    return np.searchsorted(r.starts, positions, side="right") - 1
 
 
 def _one_sided(diff: float, se: float, *, below: bool) -> float:
