@@ -231,12 +231,32 @@ def _as_baseline(obj: Any, policy: Policy) -> tuple[ScoreTable, str, str | None]
     from gate.baseline import Baseline, load_baseline
 
     if isinstance(obj, Baseline):
-        return obj.table, obj.table.source, obj.manifest.note
-    if isinstance(obj, (str, PathLike)) and Path(obj).is_dir():
+        return obj.table, obj.directory or obj.table.source, obj.manifest.note
+    if isinstance(obj, (str, PathLike)) and _names_baseline_directory(obj):
         b = load_baseline(Path(obj))
         return b.table, str(obj), b.manifest.note
     table = _as_table(obj, policy, "baseline")
     return table, table.source, None
+
+
+def _names_baseline_directory(path: str | PathLike[str]) -> bool:
+    """True for a directory, and for a missing path that is not a score-table file name.
+
+    ``--baseline baseline/`` before the first ``rankgate adopt`` must say that the baseline
+    directory does not exist (load_baseline's message), not that '(none)' is an unknown file type.
+    """
+    from gate.io import table_format
+
+    p = Path(path)
+    if p.is_dir():
+        return True
+    if p.exists():
+        return False
+    try:
+        table_format(p)
+    except TableError:
+        return True
+    return False
 
 
 # --- per check ----------------------------------------------------------------------------------
@@ -591,7 +611,7 @@ def load_inputs(
         return cand, None
     from gate.baseline import load_baseline
 
-    if Path(baseline).is_dir():
+    if _names_baseline_directory(baseline):
         return cand, load_baseline(Path(baseline))
     return cand, _as_table(baseline, policy, "baseline")
 
