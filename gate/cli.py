@@ -148,8 +148,9 @@ def demo_command(
 ) -> None:
     """Run the invented leak-scoring scenario end to end: adopt, two gate checks, a month of nightly watching.
 
-    Exit 0 when the demo told its story (better candidate passes, regressing one fails, the nightly
-    trend raises an alarm); 1 if any of those came out otherwise.
+    Exit 0 when the demo told its story (better candidate passes, regressing one fails; the nightly
+    trend raises an alarm over a full month, and stays quiet when --nights ends before the slow
+    decay begins); 1 if any of those came out otherwise.
     """
     from datetime import datetime, timedelta, timezone
     from importlib.resources import files
@@ -222,13 +223,30 @@ def demo_command(
     say(f"-> exit code {EXIT_FAIL if trend.alarmed else EXIT_PASS} ({'alarm' if trend.alarmed else 'no alarm'})")
     say("")
 
+    # The decay begins on night DECAY_START + 1: a shorter watch must stay quiet (no false alarm),
+    # a full month must raise the alarm; in between the alarm may or may not have come yet.
+    decay_begins = demo.DECAY_START + 1
+    if nights < decay_begins:
+        trend_ok = not trend.alarmed
+        trend_story = (
+            f"the nightly watch stayed quiet over {nights} nights, before the slow decay in "
+            f"{demo.DECAY_DISTRICT} begins (night {decay_begins}; run --nights {demo.NIGHTS} to see its alarm)"
+        )
+    elif nights >= demo.NIGHTS:
+        trend_ok = trend.alarmed
+        trend_story = f"the nightly watch raised an alarm for the slow decay in {demo.DECAY_DISTRICT}"
+    else:
+        trend_ok = True
+        trend_story = (
+            f"the nightly watch {'raised an alarm' if trend.alarmed else 'has not raised an alarm yet'} "
+            f"for the slow decay in {demo.DECAY_DISTRICT} that began on night {decay_begins}"
+        )
     story = (
-        verdicts["candidate_better"] == "pass" and verdicts["candidate_regressing"] == "fail" and trend.alarmed
+        verdicts["candidate_better"] == "pass" and verdicts["candidate_regressing"] == "fail" and trend_ok
     )
     say(
         "Demo done: the better candidate passed, the one that regresses in "
-        f"{demo.REGRESSING_DISTRICT} failed, and the nightly watch raised an alarm for the slow decay in "
-        f"{demo.DECAY_DISTRICT}. Reports are in {out}/."
+        f"{demo.REGRESSING_DISTRICT} failed, and {trend_story}. Reports are in {out}/."
         if story
         else "Demo finished, but its story did not hold (see the summaries above): please report this."
     )
