@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -86,6 +87,9 @@ class TieBlocks:
     ----------
     thresholds : (k,) float64, strictly decreasing distinct scores.
     pos, neg : (..., k) float64 weighted counts of positives / negatives at each score.
+
+    Treat an instance as immutable: its cumulative counts are computed once, on first use, and
+    cached, so the arrays must not be modified after construction.
     """
 
     thresholds: NDArray[np.float64]
@@ -118,6 +122,20 @@ class TieBlocks:
     def k(self) -> int:
         """Number of tie blocks (distinct scores)."""
         return int(self.thresholds.shape[0])
+
+    @cached_property
+    def cumulative(
+        self,
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
+        """(TP, FP, P, N): weighted positives / negatives flagged after each block (read-only
+        (..., k) arrays) and the totals (the last cumulative values, so that recall and FPR reach
+        exactly 1 at the last block)."""
+        # float64 cumulative sums: integer-valued counts stay exact up to 2**53.
+        tp = np.cumsum(self.pos, axis=-1)
+        fp = np.cumsum(self.neg, axis=-1)
+        tp.flags.writeable = False
+        fp.flags.writeable = False
+        return tp, fp, tp[..., -1], fp[..., -1]
 
 
 @dataclass(frozen=True, eq=False)
@@ -362,11 +380,29 @@ def _out(x: NDArray[np.float64] | np.floating) -> FloatOrArray:
 
 
 def _cum(blocks: TieBlocks) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
-    """Cumulative TP / FP after each block and the totals P / N (the last cumulative values, so
-    that recall and FPR reach exactly 1 at the last block)."""
-    tp = np.cumsum(blocks.pos, axis=-1)
-    fp = np.cumsum(blocks.neg, axis=-1)
-    return tp, fp, tp[..., -1], fp[..., -1]
+    return blocks.cumulative
+
+
+def _rowdot(a: NDArray[np.float64], b: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Sum over the last axis of a * b, without an (..., k) temporary."""
+    if a.ndim == 1 and b.ndim == 1:
+        return np.asarray(np.dot(a, b))
+    return np.einsum("...k,...k->...", a, b)
+
+
+def _prefix_count(cum: NDArray[np.float64], total: float, limit: float, *, strict: bool) -> int:
+    """Number of leading entries with ``cum / total <= limit`` (``<`` when strict), for a
+    non-decreasing 1-D ``cum``. The quotient is monotone in ``cum`` (correct rounding), so the
+    entries form a prefix; a binary search on ``limit * total`` lands within an ulp of its end
+    and the exact quotient test settles the last step."""
+    ok = (lambda v: v / total < limit) if strict else (lambda v: v / total <= limit)
+    j = int(np.searchsorted(cum, limit * total, side="left" if strict else "right"))
+    k = cum.shape[0]
+    while j < k and ok(cum[j]):
+        j = int(np.searchsorted(cum, cum[j], side="right"))
+    while j > 0 and not ok(cum[j - 1]):
+        j = int(np.searchsorted(cum, cum[j - 1], side="left"))
+    return j
 
 
 def _where(total: NDArray[np.float64], bad: NDArray[np.bool_]) -> str:
@@ -536,8 +572,8 @@ def roc_auc(blocks: TieBlocks) -> FloatOrArray:
     tp, fp, p, q = _cum(blocks)
     _need_pos("roc_auc", p)
     _need_neg("roc_auc", q)
-    below = q[..., None] - fp  # negatives strictly below each block (fp is inclusive)
-    num = np.sum(blocks.pos * (below + 0.5 * blocks.neg), axis=-1)
+    # sum_b pos_b (N - FP_b + neg_b / 2), FP_b inclusive, as dot products (no (k,) temporaries).
+    num = p * q - _rowdot(blocks.pos, fp) + 0.5 * _rowdot(blocks.pos, blocks.neg)
     # The true value lies in [0, 1]; clipping only removes the last-bit rounding of the sums.
     return _out(np.clip(num / (p * q), 0.0, 1.0))
 
@@ -563,9 +599,10 @@ def discordant_pairs(blocks: TieBlocks) -> FloatOrArray:
     >>> discordant_pairs(tie_blocks([0.1, 0.5, 0.5, 0.9, 0.5, 0.3], [0, 0, 1, 1, 0, 1]))
     3.0
     """
-    tp, _, p, _ = _cum(blocks)
-    pos_below = p[..., None] - tp
-    return _out(np.sum(blocks.neg * (pos_below + 0.5 * blocks.pos), axis=-1))
+    tp, fp, p, q = _cum(blocks)
+    # sum_b neg_b (P - TP_b + pos_b / 2)
+    d = p * q - _rowdot(blocks.neg, tp) + 0.5 * _rowdot(blocks.neg, blocks.pos)
+    return _out(np.maximum(d, 0.0))
 
 
 @dataclass(frozen=True, eq=False)
@@ -630,6 +667,15 @@ def partial_auc(blocks: TieBlocks, *, max_fpr: float) -> PartialAuc:
     tp, fp, p, q = _cum(blocks)
     _need_pos("partial_auc", p)
     _need_neg("partial_auc", q)
+    # Blocks after the first one passing FPR max_fpr add nothing: cut there (the margin covers
+    # rounding in m * N; extra blocks only add zero-width segments).
+    lim = m * q * (1.0 + 1e-9)
+    if blocks.batched:
+        j = int(np.max(np.count_nonzero(fp <= lim[..., None], axis=-1))) + 1
+    else:
+        j = int(np.searchsorted(fp, lim, side="right")) + 1
+    j = min(j, blocks.k)
+    tp, fp = tp[..., :j], fp[..., :j]
     f1 = fp / q[..., None]
     t1 = tp / p[..., None]
     pad = [(0, 0)] * (f1.ndim - 1) + [(1, 0)]
@@ -742,9 +788,13 @@ def average_precision(blocks: TieBlocks) -> FloatOrArray:
     """
     tp, fp, p, _ = _cum(blocks)
     _need_pos("average_precision", p)
+    if not blocks.batched:
+        i = np.flatnonzero(blocks.pos > 0)  # only blocks holding positives add a step
+        ap = np.dot(blocks.pos[i], tp[i] / (tp[i] + fp[i])) / p
+        return float(np.clip(ap, 0.0, 1.0))
     has_pos = blocks.pos > 0  # then tp >= pos > 0, so precision is defined
     prec = np.divide(tp, tp + fp, out=np.zeros_like(tp), where=has_pos)
-    return _out(np.clip(np.sum(blocks.pos * prec, axis=-1) / p, 0.0, 1.0))
+    return _out(np.clip(_rowdot(blocks.pos, prec) / p, 0.0, 1.0))
 
 
 # ----------------------------------------------------------------------------------------------
@@ -833,8 +883,7 @@ def recall_at_fpr(blocks: TieBlocks, *, fpr: float) -> OperatingPoint:
     tp, fp, p, q = _cum(blocks)
     _need_pos("recall_at_fpr", p)
     _need_neg("recall_at_fpr", q)
-    feasible = fp / q <= alpha  # a prefix: fp is non-decreasing
-    n_ok = int(np.count_nonzero(feasible))
+    n_ok = _prefix_count(fp, float(q), alpha, strict=False)  # blocks with FP / N <= alpha
     if n_ok == 0:
         return _operating_point(blocks, 0)
     best_tp = tp[n_ok - 1]
@@ -869,6 +918,8 @@ def recall_at_fpr_values(blocks: TieBlocks, *, fpr: float) -> FloatOrArray:
     [0.75, 0.0]
     """
     alpha = _fraction("fpr", fpr)
+    if not blocks.batched:
+        return recall_at_fpr(blocks, fpr=alpha).recall
     tp, fp, p, q = _cum(blocks)
     _need_pos("recall_at_fpr", p)
     _need_neg("recall_at_fpr", q)
@@ -921,14 +972,30 @@ def precision_at_recall(blocks: TieBlocks, *, recall: float) -> OperatingPoint:
     """
     _unbatched(blocks, "precision_at_recall")
     r = _fraction("recall", recall)
-    prec, feasible = _precision_choice(blocks, r)
-    _need_neg("precision_at_recall", np.sum(blocks.neg))
-    tp = np.cumsum(blocks.pos)
-    best = prec.max()
-    cand = np.flatnonzero(feasible & (prec == best))
-    cand_tp = tp[cand]
-    j = int(cand[np.flatnonzero(cand_tp == cand_tp.max())[0]]) + 1
-    return _operating_point(blocks, j)
+    tp, fp, p, q = _cum(blocks)
+    _need_pos("precision_at_recall", p)
+    _need_neg("precision_at_recall", q)
+    j = _best_precision_block(blocks, r)
+    return _operating_point(blocks, j + 1)
+
+
+def _best_precision_block(blocks: TieBlocks, r: float) -> int:
+    """Index of the block chosen by :func:`precision_at_recall` (unbatched, P > 0).
+
+    Only the first feasible block and feasible blocks holding positives can win: a block without
+    positives has the recall of the block before it and no better precision, and the tie rule
+    prefers the earlier one.
+    """
+    tp, fp, p, _ = _cum(blocks)
+    start = _prefix_count(tp, float(p), r, strict=True)  # blocks with recall < r come first
+    first_flagged = min(int(np.searchsorted(tp, 0.0, side="right")), int(np.searchsorted(fp, 0.0, side="right")))
+    start = max(start, first_flagged)  # precision is undefined before anything is flagged
+    cand = start + np.flatnonzero(blocks.pos[start:] > 0)
+    if cand.size == 0 or cand[0] != start:
+        cand = np.concatenate([[start], cand])
+    prec = tp[cand] / (tp[cand] + fp[cand])
+    best = cand[prec == prec.max()]
+    return int(best[np.flatnonzero(tp[best] == tp[best].max())[0]])
 
 
 def precision_at_recall_values(blocks: TieBlocks, *, recall: float) -> FloatOrArray:
@@ -941,6 +1008,11 @@ def precision_at_recall_values(blocks: TieBlocks, *, recall: float) -> FloatOrAr
     0.75
     """
     r = _fraction("recall", recall)
+    if not blocks.batched:
+        tp, fp, p, _ = _cum(blocks)
+        _need_pos("precision_at_recall", p)
+        j = _best_precision_block(blocks, r)
+        return float(tp[j] / (tp[j] + fp[j]))
     prec, _ = _precision_choice(blocks, r)
     return _out(prec.max(axis=-1))
 
@@ -1084,15 +1156,17 @@ class CostPoint:
     fn: float
 
 
-def _cost_numerators(blocks: TieBlocks, a: float, c: float) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    """Weighted cost of each candidate (index 0: flag nothing; index i: first i blocks) and W."""
-    tp, fp, p, q = _cum(blocks)
-    total = p + q
-    _need_any("expected cost", total)
-    pad = [(0, 0)] * (tp.ndim - 1) + [(1, 0)]
-    tp0 = np.pad(tp, pad)
-    fp0 = np.pad(fp, pad)
-    return a * fp0 + c * (p[..., None] - tp0), total
+def _cost_candidates(blocks: TieBlocks, a: float, c: float) -> tuple[NDArray[np.intp], NDArray[np.float64]]:
+    """Candidates j (flag the first j blocks) that can be cost-optimal under the tie rule, with
+    their weighted cost ``a FP + c FN`` (unbatched). Only j = 0 and j right after a block holding
+    positives qualify: a block without positives adds false positives and no true ones, so it
+    never lowers the cost, and on equal cost the earlier j (higher threshold) wins."""
+    tp, fp, p, _ = _cum(blocks)
+    after = np.flatnonzero(blocks.pos > 0)
+    j = np.concatenate([[0], after + 1])
+    tpj = np.concatenate([[0.0], tp[after]])
+    fpj = np.concatenate([[0.0], fp[after]])
+    return j, a * fpj + c * (p - tpj)
 
 
 def optimal_cost(blocks: TieBlocks, *, cost_fp: float, cost_fn: float) -> CostPoint:
@@ -1131,13 +1205,14 @@ def optimal_cost(blocks: TieBlocks, *, cost_fp: float, cost_fn: float) -> CostPo
     """
     _unbatched(blocks, "optimal_cost")
     a, c = _costs(cost_fp, cost_fn)
-    num, total = _cost_numerators(blocks, a, c)
-    p = float(np.sum(blocks.pos))
-    q = float(np.sum(blocks.neg))
-    tol = 1e-12 * (a * q + c * p)
-    j = int(np.flatnonzero(num <= num.min() + tol)[0])
-    threshold, tp, fp, tn, fn = _counts_at(blocks, j)
-    return CostPoint(threshold=threshold, cost=float(num[j] / total), tp=tp, fp=fp, tn=tn, fn=fn)
+    _, _, p, q = _cum(blocks)
+    total = float(p + q)
+    _need_any("expected cost", np.asarray(total))
+    cand, num = _cost_candidates(blocks, a, c)
+    tol = 1e-12 * (a * float(q) + c * float(p))
+    i = int(np.flatnonzero(num <= num.min() + tol)[0])
+    threshold, tp, fp, tn, fn = _counts_at(blocks, int(cand[i]))
+    return CostPoint(threshold=threshold, cost=float(num[i] / total), tp=tp, fp=fp, tn=tn, fn=fn)
 
 
 def optimal_cost_values(blocks: TieBlocks, *, cost_fp: float, cost_fn: float) -> FloatOrArray:
@@ -1149,8 +1224,17 @@ def optimal_cost_values(blocks: TieBlocks, *, cost_fp: float, cost_fn: float) ->
     0.25
     """
     a, c = _costs(cost_fp, cost_fn)
-    num, total = _cost_numerators(blocks, a, c)
-    return _out(num.min(axis=-1) / total)
+    tp, fp, p, q = _cum(blocks)
+    total = p + q
+    _need_any("expected cost", total)
+    if not blocks.batched:
+        _, num = _cost_candidates(blocks, a, c)
+        return float(num.min() / total)
+    # a FP_j + c (P - TP_j) = c P + (a FP_j - c TP_j); j = 0 (flag nothing) gives c P.
+    gain = a * fp
+    gain -= c * tp
+    best = c * p + np.minimum(gain.min(axis=-1), 0.0)
+    return _out(best / total)
 
 
 # ----------------------------------------------------------------------------------------------
@@ -1228,8 +1312,13 @@ def roc_hull(blocks: TieBlocks) -> tuple[NDArray[np.float64], NDArray[np.float64
     tp, fp, p, q = _cum(blocks)
     _need_pos("roc_hull", p)
     _need_neg("roc_hull", q)
-    x = np.concatenate([[0.0], fp])
-    y = np.concatenate([[0.0], tp])
+    # Only a corner can be a vertex: the end of a block holding positives (the curve rises into
+    # it) followed, after any weightless blocks, by one holding negatives (it turns right).
+    live = np.flatnonzero((blocks.pos > 0) | (blocks.neg > 0))
+    corner = (blocks.pos[live[:-1]] > 0) & (blocks.neg[live[1:]] > 0)
+    keep = live[:-1][corner]
+    x = np.concatenate([[0.0], fp[keep], [q]])
+    y = np.concatenate([[0.0], tp[keep], [p]])
     v = _upper_hull(x, y)
     return x[v] / q, y[v] / p
 
@@ -1292,7 +1381,8 @@ def brier(blocks: TieBlocks) -> FloatOrArray:
         raise UndefinedMetricError(
             f"brier needs scores that are probabilities in [0, 1]; found score {float(bad)!r}"
         )
-    num = np.sum(blocks.pos * (1.0 - s) ** 2 + blocks.neg * s**2, axis=-1)
-    total = np.sum(blocks.pos, axis=-1) + np.sum(blocks.neg, axis=-1)
+    num = np.matmul(blocks.pos, (1.0 - s) ** 2) + np.matmul(blocks.neg, s**2)
+    _, _, p, q = _cum(blocks)
+    total = p + q
     _need_any("brier", total)
     return _out(np.clip(num / total, 0.0, 1.0))
