@@ -530,18 +530,21 @@ class _Engine:
         neg_slot[self.m :] = True
         self.models: list[_Model] = []
         for r in rankings:
+            weight: NDArray[np.float64] | None = None
             if r is ref:
-                block_sorted = np.repeat(np.arange(r.k), r.block_sizes)
-                block = block_sorted[slot_sorted]
-                weight = np.asarray(r.weights_sorted)[slot_sorted]
+                block = slot_sorted if r.k == r.n else np.repeat(np.arange(r.k), r.block_sizes)[slot_sorted]
+                if not r.unit_weights:
+                    weight = np.asarray(r.weights_sorted)[slot_sorted]
             else:
                 block = r.block_of[self.example_of_slot]
-                w = np.empty(r.n, dtype=np.float64)
-                w[r.order] = r.weights_sorted
-                weight = w[self.example_of_slot]
+                if not r.unit_weights:
+                    w = np.empty(r.n, dtype=np.float64)
+                    w[r.order] = r.weights_sorted
+                    weight = w[self.example_of_slot]
             slot_bin = block + np.where(neg_slot, r.k, 0)
-            unit = bool(np.all(weight == 1.0))
-            self.models.append(_Model(r.thresholds, r.k, slot_bin, None if unit else weight, r.k == r.n))
+            if weight is not None and bool(np.all(weight == 1.0)):
+                weight = None
+            self.models.append(_Model(r.thresholds, r.k, slot_bin, weight, r.k == r.n))
 
     @property
     def total(self) -> int:
@@ -558,6 +561,10 @@ class _Engine:
         """
         m, nn = self.m, self.n_neg
         total = m + nn
+        if c > 1 and total >= _ROW_BY_ROW:
+            # Row by row: (total,) temporaries and one bincount over ``total`` bins stay in cache
+            # far better than (c, total) ones; the stream is consumed in the same order.
+            return np.concatenate([self.draw(rng, 1) for _ in range(c)])
         # u <= 1 - 2**-53, so u * size rounds to at most size - 1 (for any size < 2**53).
         u = rng.random((c, total))
         if self.stratified:
@@ -597,8 +604,8 @@ class _Engine:
         ones = np.ones((1, self.total), dtype=np.int64)
         out = []
         for mod in self.models:
-            pos, neg = self.blocks(mod, ones)
-            out.append([float(_evaluate(f, mod.thresholds, pos, neg, "the data")[0]) for f in statistics])
+            tb = TieBlocks(mod.thresholds, *self.blocks(mod, ones))
+            out.append([float(_evaluate(f, tb, "the data")[0]) for f in statistics])
         return out
 
     def run(
@@ -619,9 +626,9 @@ class _Engine:
             counts = self.draw(rng, stop - start)
             where = f"bootstrap replicates {start + 1}-{stop}"
             for mod, res in zip(self.models, out):
-                pos, neg = self.blocks(mod, counts)
+                tb = TieBlocks(mod.thresholds, *self.blocks(mod, counts))
                 for f, arr in zip(statistics, res):
-                    arr[start:stop] = _evaluate(f, mod.thresholds, pos, neg, where)
+                    arr[start:stop] = _evaluate(f, tb, where)
             if progress is not None:
                 progress(stop, resamples)
         return out
@@ -650,26 +657,26 @@ class _Engine:
                     # Rounding in the subtraction can leave -1e-17 where a block is emptied.
                     np.maximum(full - np.bincount(mod.slot_bin[sl], w[sl], k2), 0.0, out=sums[j])
                 where = f"jackknife groups {start + 1}-{stop}"
-                res[start:stop] = _evaluate(statistic, mod.thresholds, sums[:, : mod.k], sums[:, mod.k :], where)
+                tb = TieBlocks(mod.thresholds, sums[:, : mod.k], sums[:, mod.k :])
+                res[start:stop] = _evaluate(statistic, tb, where)
         return out
 
 
-def _evaluate(
-    statistic: Statistic,
-    thresholds: NDArray[np.float64],
-    pos: NDArray[np.float64],
-    neg: NDArray[np.float64],
-    where: str,
-) -> NDArray[np.float64]:
+def _evaluate(statistic: Statistic, blocks: TieBlocks, where: str) -> NDArray[np.float64]:
+    """The statistic on a batch of tie blocks, checked: one finite value per replicate.
+
+    One TieBlocks per model and chunk is shared by all statistics, so the cumulative counts it
+    caches are computed once.
+    """
     try:
-        values = statistic(TieBlocks(thresholds, pos, neg))
+        values = statistic(blocks)
     except UndefinedMetricError as exc:
         raise UndefinedMetricError(f"{where}: {exc}") from None
+    rows = blocks.pos.shape[0]
     arr = np.asarray(values, dtype=np.float64).reshape(-1)
-    if arr.shape != (pos.shape[0],):
+    if arr.shape != (rows,):
         raise ValueError(
-            f"statistic must return one value per replicate: expected {pos.shape[0]}, got shape "
-            f"{np.shape(values)}"
+            f"statistic must return one value per replicate: expected {rows}, got shape {np.shape(values)}"
         )
     if not np.all(np.isfinite(arr)):
         raise UndefinedMetricError(f"{where}: the statistic is not finite ({arr[~np.isfinite(arr)][0]})")

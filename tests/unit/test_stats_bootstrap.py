@@ -107,6 +107,24 @@ def test_results_independent_of_chunk_size(chunk: int) -> None:
     assert got.delta_interval(method="bca") == ref.delta_interval(method="bca")
 
 
+def test_chunk_independence_on_the_row_by_row_path() -> None:
+    # Above 2**16 examples draws and block sums go replicate by replicate; still the same numbers,
+    # and the same as the ranking's own block sums of the counts.
+    rng = np.random.default_rng(25)
+    n = 70_000
+    y = rng.random(n) < 0.1
+    s1 = np.round(rng.normal(size=n) + y, 2)  # tied
+    s2 = rng.normal(size=n) + y  # untied
+    a, b = rank(s1, y), rank(s2, y)
+    ref = paired_bootstrap(a, b, roc_auc, resamples=5, seed=3, chunk_size=1)
+    got = paired_bootstrap(a, b, roc_auc, resamples=5, seed=3, chunk_size=3)
+    np.testing.assert_array_equal(ref.replicates_a, got.replicates_a)
+    np.testing.assert_array_equal(ref.replicates_b, got.replicates_b)
+    counts = replicate_counts(a, resamples=5, seed=3).astype(float)
+    np.testing.assert_allclose(ref.replicates_b, roc_auc(b.blocks(counts)), atol=1e-13)
+    np.testing.assert_allclose(ref.replicates_a, roc_auc(a.blocks(counts)), atol=1e-13)
+
+
 def test_progress_called_per_chunk_up_to_total() -> None:
     s1, _, y = _data(7)
     calls: list[tuple[int, int]] = []
