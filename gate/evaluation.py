@@ -20,8 +20,8 @@ that can fail (each a one-sided test of "the requirement holds", p from the norm
 with the interval's standard error); one that does not becomes inconclusive.
 
 Seeds: each check and slice draws its bootstrap from a seed derived from ``[stats] seed``, the
-check's position and the slice value, so a report does not change when checks are added elsewhere
-in the policy's list or slices are evaluated in a different order.
+check's name (unique within a policy) and the slice value, so a report does not change when checks
+are reordered or added elsewhere in the policy's list, or slices are evaluated in a different order.
 """
 
 from __future__ import annotations
@@ -112,10 +112,15 @@ def _norm_cdf(x: float) -> float:
     return 0.5 * math.erfc(-x / math.sqrt(2.0))
 
 
-def _seed_for(base_seed: int, check_index: int, slice_value: str | None) -> int:
-    """A per-check, per-slice seed that does not depend on evaluation order."""
-    tag = zlib.crc32((slice_value if slice_value is not None else "\x00overall").encode("utf-8"))
-    ss = np.random.SeedSequence([int(base_seed) % (2**63), check_index, tag])
+def _seed_for(base_seed: int, check_name: str, slice_value: str | None) -> int:
+    """A per-check, per-slice seed that does not depend on evaluation order.
+
+    Keyed by the check's name, not its position: the policy layer makes names unique, and a
+    position would change every later check's numbers when a check is inserted or reordered.
+    """
+    name_tag = zlib.crc32(check_name.encode("utf-8", "surrogatepass"))
+    tag = zlib.crc32((slice_value if slice_value is not None else "\x00overall").encode("utf-8", "surrogatepass"))
+    ss = np.random.SeedSequence([int(base_seed) % (2**63), name_tag, tag])
     return int(ss.generate_state(1, dtype=np.uint64)[0] % (2**63))
 
 
@@ -331,7 +336,6 @@ def _use_delong(check: Check, policy: Policy, *tables: ScoreTable) -> bool:
 def _evaluate_one(
     ctx: _Context,
     check: Check,
-    check_index: int,
     key: SliceKey | None,
     cand: ScoreTable,
     base: ScoreTable | None,
@@ -376,7 +380,7 @@ def _evaluate_one(
         )
 
     statistic = _statistic(check)
-    seed = _seed_for(pol.stats.seed, check_index, None if key is None else key.value)
+    seed = _seed_for(pol.stats.seed, check.name, None if key is None else key.value)
     resamples = pol.stats.resamples
     c_rank = rk.rank(cand.scores, cand.labels, cand.weights)
     c_blocks = c_rank.blocks()
@@ -682,11 +686,11 @@ def evaluate(
 
     ctx = _Context(policy=pol, progress=progress)
     results: list[CheckResult] = []
-    for index, check in enumerate(pol.checks):
+    for check in pol.checks:
         for key, mask in _slices(check, cand):
             c_sub = _sub(cand, mask)
             b_sub = None if base is None or check.margin is None else _sub(base, mask)
-            results.append(_evaluate_one(ctx, check, index, key, c_sub, b_sub))
+            results.append(_evaluate_one(ctx, check, key, c_sub, b_sub))
 
     if pol.stats.adjust == "holm":
         results = _holm_adjust(results, pol)
