@@ -512,3 +512,28 @@ def test_unexpected_exception_exits_3_with_a_traceback(tmp_path: Path, cand: Pat
     assert "Traceback (most recent call last)" in result.stderr
     assert "RuntimeError: simulated bug in the engine" in result.stderr
     assert "error:" not in result.stderr
+
+
+def test_slice_value_with_a_lone_surrogate(tmp_path: Path) -> None:
+    # JSON Lines may spell a lone surrogate ("\ud800"), which Python's json keeps in the str; such a
+    # slice value must be evaluated and shown escaped, never crash the run (exit 3).
+    es = eval_set(300, prevalence=0.4, seed=13, districts=("x\ud800", "y"))
+    scores = es.scores(1.6, seed=1)
+    path = tmp_path / "s.jsonl"
+    path.write_text(
+        "".join(
+            json.dumps({"id": i, "label": int(y), "score": float(s), "district": d}) + "\n"
+            for i, y, s, d in zip(es.ids, es.labels, scores, es.districts, strict=True)
+        ),
+        encoding="ascii",
+    )
+    policy = write_text(
+        tmp_path / "p.toml",
+        FAST + '[[check]]\nname = "ap"\nmetric = "average_precision"\nat_least = 0.1\nby = "district"\nmin_positives = 5\n',
+    )
+    out, junit = tmp_path / "r.json", tmp_path / "j.xml"
+    result = invoke("--policy", policy, "--candidate", path, "--json", out, "--junit", junit)
+    assert result.exit_code == 0, result.stderr
+    assert "district = x\\\\ud800 |" in result.stdout  # shown as an escape (its backslash escaped)
+    assert {c["slice"]["value"] for c in json.loads(out.read_text())["checks"]} == {"x\ud800", "y"}
+    assert len(list(ET.parse(junit).getroot().iter("testcase"))) == 2
