@@ -187,6 +187,9 @@ class Ranking:
         if weights is None:
             if self.unit_weights:
                 # Counting, not summing: the positives per block, the rest are negatives.
+                if self.k == self.n:  # no ties: one example per block
+                    pos = self.labels_sorted.astype(np.float64)
+                    return TieBlocks(self.thresholds, pos, 1.0 - pos)
                 pos = _count_per_block(self.labels_sorted, self.starts).astype(np.float64)
                 neg = self.block_sizes.astype(np.float64) - pos
                 return TieBlocks(self.thresholds, pos, neg)
@@ -238,31 +241,59 @@ def _descending_keys(x: NDArray[np.float64]) -> NDArray[np.uint64]:
 def _order_descending(s: NDArray[np.float64], thresholds: NDArray[np.float64]) -> NDArray[np.intp]:
     """Indices that sort ``s`` descending, given its distinct values ``thresholds`` (descending).
 
-    Fast path: when the distinct scores still differ after dropping the low ``b`` bits of their
-    order-preserving integer keys (``b`` = bits needed for an index), the example index is packed
-    into those low bits and one in-place integer sort (much faster than an argsort) yields the
-    order, ties by ascending index. This holds for float32-valued and rounded scores, the common
-    case. Otherwise an argsort of the keys is used.
+    The example index is packed into the low ``b`` bits (``b`` = bits needed for an index) of the
+    scores' order-preserving integer keys, and one in-place integer sort, much faster than an
+    argsort, orders by (high bits of the key, index). Distinct scores whose keys differ in the
+    high bits are then in order, and ties sit by ascending index. Scores sharing their high bits
+    with another distinct score (a collision: none for float32-valued or rounded scores, a few
+    per million for full-precision ones) occupy a few contiguous ranges of the sorted keys,
+    which are re-sorted by full key. When collisions touch more than a quarter of the rows, an
+    argsort of the full keys is used instead.
     """
     n = s.size
     shift = max(1, (n - 1).bit_length())
-    tkeys = _descending_keys(np.add(thresholds, 0.0))
-    high = tkeys >> np.uint64(shift)
-    if shift < 64 and bool(np.all(high[1:] > high[:-1])):
-        keys = np.empty(n, dtype=np.uint64)
-        sh = np.uint64(shift)
-        for i in range(0, n, _KEY_CHUNK):
-            j = min(n, i + _KEY_CHUNK)
-            c = _descending_keys(np.add(s[i:j], 0.0))  # + 0.0 folds -0.0 into +0.0
-            c >>= sh
-            c <<= sh
-            c |= np.arange(i, j, dtype=np.uint64)
-            keys[i:j] = c
-        keys.sort()
-        keys &= np.uint64((1 << shift) - 1)
-        if np.dtype(np.intp).itemsize == 8:
-            return keys.view(np.intp)
-        return keys.astype(np.intp)
+    if shift >= 48:  # not enough key bits left to be useful
+        return _argsort_keys(s)
+    sh = np.uint64(shift)
+    low_mask = np.uint64((1 << shift) - 1)
+    tkeys = _descending_keys(np.add(thresholds, 0.0))  # ascending
+    thigh = tkeys >> sh
+    collide = thigh[1:] == thigh[:-1]
+    bad = np.unique(thigh[1:][collide])  # high parts shared by two or more distinct scores
+
+    keys = np.empty(n, dtype=np.uint64)
+    for i in range(0, n, _KEY_CHUNK):
+        j = min(n, i + _KEY_CHUNK)
+        c = _descending_keys(np.add(s[i:j], 0.0))  # + 0.0 folds -0.0 into +0.0
+        c >>= sh
+        c <<= sh
+        c |= np.arange(i, j, dtype=np.uint64)
+        keys[i:j] = c
+    keys.sort()
+
+    if bad.size:
+        base = bad << sh
+        lo = np.searchsorted(keys, base, side="left")
+        hi = np.searchsorted(keys, base | low_mask, side="right")
+        lens = hi - lo
+        m = int(lens.sum())
+        if m > n // 4:
+            del keys
+            return _argsort_keys(s)
+        offsets = np.cumsum(lens) - lens
+        where = np.arange(m) + np.repeat(lo - offsets, lens)  # positions inside the ranges
+        idx = keys[where] & low_mask
+        full = _descending_keys(np.add(s[idx.astype(np.intp)], 0.0))
+        run = np.repeat(np.arange(bad.size), lens)
+        keys[where] = idx[np.lexsort((idx, full, run))]  # bare indices: the mask below keeps them
+    keys &= low_mask
+    if np.dtype(np.intp).itemsize == 8:
+        return keys.view(np.intp)
+    return keys.astype(np.intp)
+
+
+def _argsort_keys(s: NDArray[np.float64]) -> NDArray[np.intp]:
+    n = s.size
     keys = np.empty(n, dtype=np.uint64)
     for i in range(0, n, _KEY_CHUNK):
         j = min(n, i + _KEY_CHUNK)
@@ -339,12 +370,17 @@ def rank(
 
     # Block index of each example, filled chunk by chunk to avoid an (n,) temporary.
     block_of = np.empty(n, dtype=np.intp)
-    ends = np.append(starts[1:], n)
+    k = starts.size
+    no_ties = k == n
     for i in range(0, n, _BLOCK_CHUNK):
         j = min(n, i + _BLOCK_CHUNK)
+        if no_ties:  # every block is one example: block index = sorted position
+            block_of[order[i:j]] = np.arange(i, j)
+            continue
         lo = int(np.searchsorted(starts, i, side="right")) - 1  # block holding sorted position i
         hi = int(np.searchsorted(starts, j, side="left"))  # blocks starting before j
-        sizes = np.minimum(ends[lo:hi], j) - np.maximum(starts[lo:hi], i)
+        ends = starts[lo + 1 : hi + 1] if hi < k else np.append(starts[lo + 1 : hi], n)
+        sizes = np.minimum(ends, j) - np.maximum(starts[lo:hi], i)
         block_of[order[i:j]] = np.repeat(np.arange(lo, hi), sizes)
 
     if weights is None:

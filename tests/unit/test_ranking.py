@@ -113,6 +113,44 @@ def test_dense_scores_take_the_argsort_path_and_agree() -> None:
     assert sorted(r.order.tolist()) == list(range(7))
 
 
+def _check_sorted(r, s, y) -> None:
+    assert np.all(np.diff(s[r.order]) <= 0)
+    np.testing.assert_array_equal(np.sort(r.order), np.arange(s.size))
+    np.testing.assert_array_equal(r.thresholds[r.block_of], s)
+    np.testing.assert_array_equal(r.labels_sorted, y[r.order])
+
+
+def test_key_collisions_are_re_sorted_without_argsort(monkeypatch) -> None:
+    # Rounded scores plus a few full-precision ones: some distinct scores share the high key
+    # bits; only those short ranges are re-sorted, ties stay by ascending index.
+    rng = np.random.default_rng(11)
+    s = np.concatenate([np.round(rng.random(20_000), 2), 0.5 + rng.random(300) * 1e-12])
+    y = rng.random(s.size) < 0.3
+
+    def no_argsort(_s):
+        raise AssertionError("the argsort path should not be needed here")
+
+    monkeypatch.setattr(rk, "_argsort_keys", no_argsort)
+    r = rank(s, y)
+    _check_sorted(r, s, y)
+    for b in range(r.k):  # within a tie block: ascending index
+        block = r.order[r.starts[b] : (r.starts[b + 1] if b + 1 < r.k else r.n)]
+        assert np.all(np.diff(block) > 0)
+
+
+def test_dense_collisions_fall_back_to_argsort(monkeypatch) -> None:
+    # Full-precision scores packed into a range of 1e-9: nearly every key collides.
+    rng = np.random.default_rng(12)
+    s = 1.0 + rng.random(5000) * 1e-9
+    y = rng.random(s.size) < 0.3
+    calls = []
+    real = rk._argsort_keys
+    monkeypatch.setattr(rk, "_argsort_keys", lambda x: calls.append(1) or real(x))
+    r = rank(s, y)
+    assert calls == [1]
+    _check_sorted(r, s, y)
+
+
 def test_rank_many_rows_both_paths_consistent() -> None:
     rng = np.random.default_rng(7)
     for s in (np.round(rng.random(5000), 2), rng.standard_normal(5000)):  # packed path, then argsort
