@@ -285,12 +285,24 @@ def _need_plots() -> None:
     require_matplotlib()
 
 
-def _check_plots(result: Any, policy: Any, candidate: Any, baseline: Any, directory: Path) -> list[Path]:
+def _chart_directory(directory: Path, option: str) -> None:
+    """Create the charts directory; a path that is a file, or cannot be made, is a user mistake."""
+    if directory.exists() and not directory.is_dir():
+        raise GateError(f"{option} {directory}: exists and is not a directory")
+    try:
+        directory.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise GateError(f"{option} {directory}: cannot create the directory ({exc.strerror or exc})") from None
+
+
+def _check_plots(
+    result: Any, policy: Any, candidate: Any, baseline: Any, directory: Path, *, option: str = "--plots"
+) -> list[Path]:
     """ROC and precision-recall charts of candidate (and baseline) for the policy's checks."""
     from gate import ranking as rk
     from gate.plots import plot_pr, plot_roc, slugify
 
-    directory.mkdir(parents=True, exist_ok=True)
+    _chart_directory(directory, option)
     curves = {"candidate": rk.tie_blocks(candidate.scores, candidate.labels, candidate.weights)}
     if baseline is not None:
         curves["baseline"] = rk.tie_blocks(baseline.scores, baseline.labels, baseline.weights)
@@ -354,6 +366,8 @@ def check_command(
 
     if plots is not None or html is not None:
         _need_plots()
+    if plots is not None:  # before any report or history row is written
+        _chart_directory(plots, "--plots")
     pol = load_policy(policy)
     cand_table, base_obj = load_inputs(pol, candidate, baseline)
     base_table = baseline_table(base_obj)
@@ -461,7 +475,7 @@ def plot_command(
     if base_table is not None:
         al = align(cand_table, base_table, on_mismatch=pol.baseline.on_mismatch)
         cand_table, base_aligned = al.candidate, al.baseline
-    images = _check_plots(None, pol, cand_table, base_aligned, out)
+    images = _check_plots(None, pol, cand_table, base_aligned, out, option="--out")
     for image in images:
         typer.echo(f"wrote {image}")
     if html is not None:

@@ -158,3 +158,24 @@ def test_subprocess_adopt_then_check(tmp_path: Path) -> None:
     write_text(tmp_path / "p.toml", margin_policy(0.2, at_least=0.5))
     checked = run_gate(["check", "--policy", "p.toml", "--candidate", cand.name, "--baseline", "baseline/", "--quiet"], tmp_path)
     assert (checked.returncode, checked.stderr) == (0, "")
+
+
+def test_hostile_note_is_escaped_in_the_reports(tmp_path: Path) -> None:
+    import xml.etree.ElementTree as ET
+
+    directory = tmp_path / "baseline"
+    note = "merged <script>x</script>\n# heading | pipe"
+    assert adopt("--candidate", write_scores(tmp_path / "old.csv", ES, OLD), "--baseline", directory, "--note", note).exit_code == 0
+    cand = write_scores(tmp_path / "next.csv", ES, CAND)
+    policy = write_text(tmp_path / "margin.toml", margin_policy(0.2, at_least=0.5))
+    junit, out = tmp_path / "j.xml", tmp_path / "r.json"
+    result = runner.invoke(
+        app,
+        ["check", "--policy", str(policy), "--candidate", str(cand), "--baseline", str(directory), "--junit", str(junit), "--json", str(out)],
+    )
+    assert result.exit_code == 0, result.stderr
+    (line,) = [x for x in result.stdout.splitlines() if x.startswith("- baseline_note:")]
+    assert line == "- baseline_note: merged \\<script>x\\</script>\\\\n\\# heading \\| pipe"
+    assert "<script>" not in junit.read_text()
+    ET.parse(junit)
+    assert json.loads(out.read_text())["notes"]["baseline_note"] == note

@@ -75,3 +75,18 @@ def test_plot_errors_are_one_line(tmp_path: Path) -> None:
         "not on the same eval set",
         "100 candidate ids not in the baseline",
     )
+
+
+def test_chart_directory_that_is_a_file(tmp_path: Path) -> None:
+    cand = write_scores(tmp_path / "cand.csv", ES, ES.scores(1.6, seed=1))
+    policy = write_text(tmp_path / "p.toml", FAST + '[[check]]\nmetric = "roc_auc"\nat_least = 0.5\n')
+    assert_one_error_line(
+        runner.invoke(app, ["plot", "--candidate", str(cand), "--out", str(cand)]), "--out", "is not a directory"
+    )
+    history = tmp_path / "runs.sqlite"
+    result = runner.invoke(
+        app,
+        ["check", "--policy", str(policy), "--candidate", str(cand), "--plots", str(policy), "--history", str(history), "--quiet"],
+    )
+    assert_one_error_line(result, "--plots", "is not a directory")
+    assert not history.exists()  # refused before anything was recorded
