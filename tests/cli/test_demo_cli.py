@@ -10,6 +10,7 @@ import json
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
+import pytest
 from typer.testing import CliRunner
 
 from gate import demo
@@ -58,6 +59,7 @@ def test_demo_into_a_file_is_an_error(tmp_path: Path) -> None:
     assert_one_error_line(runner.invoke(app, ["demo", "--out", str(blocker)]), "cannot create the demo directory")
 
 
+@pytest.mark.slow  # a month of nightly runs: about 10-15 s; the short demo above runs by default
 def test_full_month_raises_the_trend_alarm(tmp_path: Path) -> None:
     out = tmp_path / "demo"
     result = runner.invoke(app, ["demo", "--out", str(out)])  # the default month of nights
