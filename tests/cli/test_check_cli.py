@@ -539,3 +539,56 @@ def test_slice_value_with_a_lone_surrogate(tmp_path: Path) -> None:
     assert "district = x\\\\ud800 |" in result.stdout  # shown as an escape (its backslash escaped)
     assert {c["slice"]["value"] for c in json.loads(out.read_text())["checks"]} == {"x\ud800", "y"}
     assert len(list(ET.parse(junit).getroot().iter("testcase"))) == 2
+
+
+def test_every_metric_end_to_end_against_references(tmp_path: Path) -> None:
+    from sklearn.metrics import average_precision_score, brier_score_loss, precision_recall_curve, roc_curve
+
+    prob = np.round(1 / (1 + np.exp(-(CAND_SCORES - 0.8))), 6)  # scores as probabilities, for brier
+    base_prob = np.round(1 / (1 + np.exp(-(BASE_SCORES - 0.8))), 6)
+    cand = write_scores(tmp_path / "cand.csv", ES, prob)
+    base = write_scores(tmp_path / "base.csv", ES, base_prob)
+    checks = [
+        ("roc", 'metric = "roc_auc"\nat_least = 0.5\nmax_drop = 0.2'),
+        ("ap", 'metric = "average_precision"\nat_least = 0.3\nmax_drop = 0.3'),
+        ("pauc", 'metric = "partial_auc"\nmax_fpr = 0.2\nat_least = 0.5\nmax_drop = 0.3'),
+        ("rfpr", 'metric = "recall_at_fpr"\nfpr = 0.1\nat_least = 0.2\nmax_drop = 0.4'),
+        ("prec", 'metric = "precision_at_recall"\nrecall = 0.5\nat_least = 0.4\nmax_drop = 0.4'),
+        ("rthr", 'metric = "recall_at_threshold"\nthreshold = 0.6\nat_least = 0.2\nmax_drop = 0.4'),
+        ("fthr", 'metric = "fpr_at_threshold"\nthreshold = 0.6\nat_most = 0.5\nmax_rise = 0.4'),
+        ("cost", 'metric = "expected_cost"\nthreshold = 0.6\ncost_fp = 1\ncost_fn = 5\nat_most = 2\nmax_rise = 1'),
+        ("brier", 'metric = "brier"\nat_most = 0.4\nmax_rise = 0.2'),
+    ]
+    text = FAST + "".join(f'[[check]]\nname = "{name}"\n{body}\n' for name, body in checks)
+    policy = write_text(tmp_path / "all.toml", text)
+    out = tmp_path / "r.json"
+    result = invoke("--policy", policy, "--candidate", cand, "--baseline", base, "--json", out, "--quiet")
+    assert result.exit_code == 0, result.stderr  # every bound is far from these toy models
+    got = {c["name"]: c for c in json.loads(out.read_text())["checks"]}
+    y = ES.labels.astype(bool)
+    flagged = prob >= 0.6
+    tp, fp = int((flagged & y).sum()), int((flagged & ~y).sum())
+    fn = int((~flagged & y).sum())
+    expected = {
+        "roc": roc_auc_score(y, prob),  # scikit-learn
+        "ap": average_precision_score(y, prob),  # scikit-learn
+        "pauc": roc_auc_score(y, prob, max_fpr=0.2),  # scikit-learn's McClish-standardized partial AUC
+        "rthr": tp / int(y.sum()),  # counted
+        "fthr": fp / int((~y).sum()),  # counted
+        "cost": (1 * fp + 5 * fn) / len(y),  # counted: mean cost per example
+        "brier": brier_score_loss(y, prob),  # scikit-learn
+    }
+    # scikit-learn's curves: best recall among ROC points with FPR <= 0.1, best precision among
+    # precision-recall points with recall >= 0.5 (the policy's definitions, starter.toml).
+    roc_fpr, roc_tpr, _ = roc_curve(y, prob, drop_intermediate=False)
+    expected["rfpr"] = float(roc_tpr[roc_fpr <= 0.1].max())
+    pr_precision, pr_recall, _ = precision_recall_curve(y, prob)
+    expected["prec"] = float(pr_precision[pr_recall >= 0.5].max())
+    for name, value in expected.items():
+        assert got[name]["value"] == pytest.approx(value, abs=1e-12), name
+    base_brier = brier_score_loss(y, base_prob)  # scikit-learn
+    assert got["brier"]["baseline_value"] == pytest.approx(base_brier, abs=1e-12)
+    assert got["brier"]["margin"]["kind"] == "max_rise" and got["fthr"]["floor"]["kind"] == "at_most"
+    for check in got.values():
+        low, high = check["delta_interval"]
+        assert low <= check["delta"] <= high
