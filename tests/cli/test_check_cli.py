@@ -592,3 +592,25 @@ def test_every_metric_end_to_end_against_references(tmp_path: Path) -> None:
     for check in got.values():
         low, high = check["delta_interval"]
         assert low <= check["delta"] <= high
+
+
+def test_formats_give_the_same_report(tmp_path: Path, cand: Path) -> None:
+    import pandas as pd
+
+    frame = pd.read_csv(cand, dtype={"id": str, "district": str})
+    paths = [cand, tmp_path / "c.parquet", tmp_path / "c.jsonl"]
+    frame.to_parquet(paths[1], index=False)
+    frame.to_json(paths[2], orient="records", lines=True)
+    policy = write_text(
+        tmp_path / "p.toml",
+        FAST + '[[check]]\nname = "recall by district"\nmetric = "recall_at_fpr"\nfpr = 0.1\nat_least = 0.2\nby = "district"\n',
+    )
+    reports = []
+    for path in paths:
+        out = tmp_path / f"{path.suffix}.json"
+        result = invoke("--policy", policy, "--candidate", path, "--json", out, "--quiet")
+        assert result.exit_code == 0, result.stderr
+        report = json.loads(out.read_text())
+        assert report.pop("candidate_source") == str(path)
+        reports.append(report)
+    assert reports[0] == reports[1] == reports[2]
