@@ -581,27 +581,38 @@ class _Engine:
         idx += (np.arange(c, dtype=np.intp) * total)[:, None]
         return np.bincount(idx.ravel(), minlength=c * total).reshape(c, total)
 
-    def blocks(self, mod: _Model, counts: NDArray[np.int64]) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-        """``(c, k)`` positive and negative block weights of one model from slot counts."""
+    def blocks(
+        self, mod: _Model, counts: NDArray[np.float64], out: NDArray[np.float64] | None = None
+    ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+        """``(c, k)`` positive and negative block weights of one model from float slot counts,
+        written into ``out`` (``(c, 2k)``) when given."""
         c = counts.shape[0]
         k2 = 2 * mod.k
         w = counts if mod.slot_weight is None else counts * mod.slot_weight
-        if mod.untied:
-            # One example per block: each bin receives one value, as bincount would give it.
-            sums = np.zeros((c, k2), dtype=np.float64)
-            sums[:, mod.slot_bin] = w
-        elif self.total >= _ROW_BY_ROW or c == 1:
-            sums = np.empty((c, k2), dtype=np.float64)
-            for j in range(c):
-                sums[j] = np.bincount(mod.slot_bin, weights=w[j], minlength=k2)
-        else:
+        if not self._row_path(mod, c):
             idx = mod.slot_bin + (np.arange(c, dtype=np.intp) * k2)[:, None]
             sums = np.bincount(idx.ravel(), weights=w.ravel(), minlength=c * k2).reshape(c, k2)
+        elif mod.untied:
+            # One example per block: each bin receives one value, as bincount would give it.
+            if out is None:
+                sums = np.zeros((c, k2), dtype=np.float64)
+            else:
+                sums = out
+                sums.fill(0.0)
+            sums[:, mod.slot_bin] = w
+        else:
+            sums = np.empty((c, k2), dtype=np.float64) if out is None else out
+            for j in range(c):
+                sums[j] = np.bincount(mod.slot_bin, weights=w[j], minlength=k2)
         return sums[:, : mod.k], sums[:, mod.k :]
+
+    def _row_path(self, mod: _Model, c: int) -> bool:
+        """Whether block sums go row by row (large data) rather than one bincount per chunk."""
+        return c == 1 or self.total >= _ROW_BY_ROW or mod.untied
 
     def estimates(self, statistics: Sequence[Statistic]) -> list[list[float]]:
         """``[model][statistic]`` values on the data as given (every count 1)."""
-        ones = np.ones((1, self.total), dtype=np.int64)
+        ones = np.ones((1, self.total), dtype=np.float64)
         out = []
         for mod in self.models:
             tb = TieBlocks(mod.thresholds, *self.blocks(mod, ones))
@@ -621,12 +632,18 @@ class _Engine:
         k_max = max(mod.k for mod in self.models)
         chunk = chunk_size or max(1, min(resamples, _CHUNK_ELEMENTS // max(k_max, self.total)))
         out = [[np.empty(resamples, dtype=np.float64) for _ in statistics] for _ in self.models]
+        buffers: list[NDArray[np.float64] | None] = [None] * len(self.models)
         for start in range(0, resamples, chunk):
             stop = min(resamples, start + chunk)
-            counts = self.draw(rng, stop - start)
+            counts = self.draw(rng, stop - start).astype(np.float64)
             where = f"bootstrap replicates {start + 1}-{stop}"
-            for mod, res in zip(self.models, out):
-                tb = TieBlocks(mod.thresholds, *self.blocks(mod, counts))
+            for i, (mod, res) in enumerate(zip(self.models, out)):
+                # Reuse one (chunk, 2k) buffer per model: no fresh pages to fault in per chunk.
+                # Safe because each chunk's TieBlocks is dropped before the next is filled.
+                buf = buffers[i]
+                if self._row_path(mod, stop - start) and (buf is None or buf.shape[0] != stop - start):
+                    buf = buffers[i] = np.empty((stop - start, 2 * mod.k), dtype=np.float64)
+                tb = TieBlocks(mod.thresholds, *self.blocks(mod, counts, out=buf))
                 for f, arr in zip(statistics, res):
                     arr[start:stop] = _evaluate(f, tb, where)
             if progress is not None:
