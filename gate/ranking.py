@@ -26,6 +26,7 @@ Conventions shared by every function here:
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass
 from functools import cached_property
@@ -144,8 +145,8 @@ class Ranking:
 
     Attributes
     ----------
-    order : (n,) indices of the examples, highest score first (ties: ascending index when the
-        fast key sort applies, otherwise an unspecified but deterministic order).
+    order : (n,) indices of the examples, highest score first; within a tie block by ascending
+        index (except after the argsort fallback for very dense scores: then some fixed order).
     starts : (k,) position in ``order`` where each tie block begins.
     block_of : (n,) tie-block index of each example, in the original (unsorted) order.
     thresholds : (k,) the block scores, strictly decreasing.
@@ -328,8 +329,10 @@ def rank(
     Notes
     -----
     Scores equal as floats share one tie block (``-0.0`` and ``0.0`` included). Cost: one
-    ``np.sort`` of the scores, one integer sort of packed keys (or an argsort when the scores'
-    bit patterns are too dense, see ``_order_descending``) and two gathers.
+    ``np.sort`` of the scores, one in-place integer sort of (score key, index) packed into 64
+    bits, a re-sort of the few key ranges where distinct scores collide (an argsort instead when
+    they are many, see ``_order_descending``), one gather and one scatter. On 10 million rows
+    this is about half the time of a single ``numpy.argsort`` (benchmarks/ranking.py).
 
     Examples
     --------
@@ -509,8 +512,8 @@ def _costs(cost_fp: float, cost_fn: float) -> tuple[float, float]:
 
 def _n_flagged(blocks: TieBlocks, threshold: float) -> int:
     """Number of tie blocks flagged at ``threshold`` (blocks with score >= threshold)."""
-    # -thresholds is ascending; negation is exact.
-    return int(np.searchsorted(-blocks.thresholds, -threshold, side="right"))
+    # A binary search over the descending thresholds, without negating the (k,) array.
+    return bisect.bisect_right(blocks.thresholds, -threshold, key=lambda v: -v)
 
 
 # ----------------------------------------------------------------------------------------------
