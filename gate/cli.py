@@ -490,7 +490,7 @@ def _trend_plots(trend: Any, directory: Path) -> list[Path]:
     """One chart per check and slice: values with interval bars, the bound, alarms marked."""
     from gate.plots import plot_trend, slugify, trend_points
 
-    directory.mkdir(parents=True, exist_ok=True)
+    _chart_directory(directory, "--plots")
     images: list[Path] = []
     for series in trend.series:
         where = "" if series.slice is None else f", {series.slice.column} = {series.slice.value}"
@@ -545,6 +545,8 @@ def trend_command(
         }
     if plots is not None or html is not None:
         _need_plots()
+    if plots is not None:
+        _chart_directory(plots, "--plots")
     window_start = parse_time(since, what="--since") if since is not None else None
     trend = compute_trend(load_runs(history, since=window_start, last=last), **settings)
     markdown = render_trend_markdown(trend, title=title)

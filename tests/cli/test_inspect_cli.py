@@ -164,17 +164,16 @@ def test_json_into_a_directory_is_an_error(runner: CliRunner, small_csv: Path, t
     assert_one_error_line(result, "is a directory")
 
 
-def test_demo_writes_the_scenario_and_inspects_the_better_candidate(runner: CliRunner, tmp_path: Path) -> None:
+def test_demo_writes_the_scenario_files_reproducibly(runner: CliRunner, tmp_path: Path) -> None:
     out = tmp_path / "demo"
-    result = runner.invoke(app, ["demo", "--out", str(out)])
+    result = runner.invoke(app, ["demo", "--out", str(out), "--nights", "6"])
     assert result.exit_code == 0, result.stderr
-    names = sorted(p.name for p in out.iterdir())
-    assert names == ["candidate-better.csv", "candidate-regressing.csv", "eval-set.csv", "production.csv"]
-    assert f"score table  {out / 'candidate-better.csv'}" in result.stdout
-    assert "20000  (400 positive, 19600 negative)" in result.stdout
+    names = {p.name for p in out.iterdir()}
+    assert {"candidate-better.csv", "candidate-regressing.csv", "eval-set.csv", "production.csv"} <= names
+    assert "== 2. rankgate check" in result.stdout
     # run twice: same bytes (fixed seed), files replaced in place
     first = (out / "candidate-better.csv").read_bytes()
-    assert runner.invoke(app, ["demo", "--out", str(out)]).exit_code == 0
+    assert runner.invoke(app, ["demo", "--out", str(out), "--nights", "6"]).exit_code == 0
     assert (out / "candidate-better.csv").read_bytes() == first
 
 
@@ -213,7 +212,7 @@ def test_subprocess_missing_file(tmp_path: Path) -> None:
 
 
 def test_subprocess_demo_default_directory(tmp_path: Path) -> None:
-    proc = run(["demo"], tmp_path)
+    proc = run(["demo", "--nights", "6"], tmp_path)
     assert proc.returncode == 0, proc.stderr
     assert (tmp_path / "rankgate-demo" / "candidate-regressing.csv").is_file()
-    assert "operating points" in proc.stdout
+    assert "Demo done" in proc.stdout
