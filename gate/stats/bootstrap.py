@@ -108,7 +108,18 @@ class BootstrapResult:
         ------
         UndefinedMetricError
             For BCa when every replicate lies on one side of the estimate (the bias correction
-            ``z0`` is infinite); use the percentile interval then.
+            ``z0`` is infinite) or the acceleration is so large that ``1 - a z <= 0``; use the
+            percentile interval then.
+
+        Notes
+        -----
+        BCa (Efron 1987) moves the percentiles to ``Phi(z0 + (z0 + z_q) / (1 - a (z0 + z_q)))``,
+        correcting for a median bias of the replicates (``z0``) and for a standard error that
+        changes with the true value (``a``). It helps where the sampling distribution is skewed:
+        metrics near 0 or 1 and few positives. In our binormal coverage study of the AUC with 10
+        positives its 95 % interval covered 0.909 of the time against the percentile's 0.890
+        (both short of nominal); with 100 or more positives the two agree
+        (tests/simulation/test_coverage.py).
         """
         c = self.confidence if confidence is None else check_confidence(confidence)
         lo, hi = (1.0 - c) / 2.0, (1.0 + c) / 2.0
@@ -129,7 +140,13 @@ class BootstrapResult:
             levels = []
             for q in (lo, hi):
                 zq = z0 + norm_ppf(q)
-                levels.append(norm_cdf(z0 + zq / (1.0 - a * zq)))
+                denom = 1.0 - a * zq
+                if denom <= 0.0:  # |a| this large means the jackknife saw a wildly skewed statistic
+                    raise UndefinedMetricError(
+                        f"BCa interval is undefined: acceleration {a:g} is too large at confidence {c:g}; "
+                        "use the percentile interval"
+                    )
+                levels.append(norm_cdf(z0 + zq / denom))
             ql, qh = np.quantile(reps, levels)
             return Interval(float(ql), float(qh), c, "bootstrap-bca")
         raise ValueError(f"method must be 'percentile' or 'bca', got {method!r}")
