@@ -19,9 +19,10 @@ With ``[stats] adjust = "holm"`` a failure must also survive Holm's adjustment a
 that can fail (each a one-sided test of "the requirement holds", p from the normal approximation
 with the interval's standard error); one that does not becomes inconclusive.
 
-Seeds: each check and slice draws its bootstrap from a seed derived from ``[stats] seed``, the
-check's name (unique within a policy) and the slice value, so a report does not change when checks
-are reordered or added elsewhere in the policy's list, or slices are evaluated in a different order.
+Seeds and sharing: every check on the same rows (the whole set, or one slice) is judged on the same
+bootstrap replicates, drawn once from a seed derived from ``[stats] seed`` and the slice (column
+and value), so a report does not change when checks are added, renamed or reordered, and the work
+grows with the number of slices rather than with the number of checks.
 """
 
 from __future__ import annotations
@@ -29,7 +30,7 @@ from __future__ import annotations
 import math
 import zlib
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from os import PathLike
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -112,15 +113,17 @@ def _norm_cdf(x: float) -> float:
     return 0.5 * math.erfc(-x / math.sqrt(2.0))
 
 
-def _seed_for(base_seed: int, check_name: str, slice_value: str | None) -> int:
-    """A per-check, per-slice seed that does not depend on evaluation order.
+def _seed_for(base_seed: int, key: SliceKey | None, kind: str) -> int:
+    """The seed of one slice's bootstrap ("single" or "paired"), independent of evaluation order.
 
-    Keyed by the check's name, not its position: the policy layer makes names unique, and a
-    position would change every later check's numbers when a check is inserted or reordered.
+    Keyed by the slice (column and value), not by a check's position or name: every check on the
+    same rows shares one set of replicates, so inserting, renaming or reordering checks changes no
+    other check's numbers, and checks on the same slice are judged on the same resamples.
     """
-    name_tag = zlib.crc32(check_name.encode("utf-8", "surrogatepass"))
-    tag = zlib.crc32((slice_value if slice_value is not None else "\x00overall").encode("utf-8", "surrogatepass"))
-    ss = np.random.SeedSequence([int(base_seed) % (2**63), name_tag, tag])
+    text = "\x00overall" if key is None else f"{key.column}\x00{key.value}"
+    tag = zlib.crc32(text.encode("utf-8", "surrogatepass"))
+    kind_tag = zlib.crc32(kind.encode("ascii"))
+    ss = np.random.SeedSequence([int(base_seed) % (2**63), tag, kind_tag])
     return int(ss.generate_state(1, dtype=np.uint64)[0] % (2**63))
 
 
@@ -271,6 +274,40 @@ def _names_baseline_directory(path: str | PathLike[str]) -> bool:
 class _Context:
     policy: Policy
     progress: Progress | None
+    # Per slice: the statistics (by check name) whose bootstrap is drawn together, and the results.
+    planned: dict[tuple[SliceKey | None, str], dict[str, Callable[[rk.TieBlocks], Any]]] = field(
+        default_factory=dict
+    )
+    drawn: dict[tuple[SliceKey | None, str], dict[str, Any]] = field(default_factory=dict)
+    rankings: dict[tuple[SliceKey | None, str], rk.Ranking] = field(default_factory=dict)
+
+    def ranking(self, key: SliceKey | None, which: str, table: ScoreTable) -> rk.Ranking:
+        slot = (key, which)
+        if slot not in self.rankings:
+            self.rankings[slot] = rk.rank(table.scores, table.labels, table.weights)
+        return self.rankings[slot]
+
+    def replicates(
+        self, key: SliceKey | None, kind: str, c_rank: rk.Ranking, b_rank: rk.Ranking | None
+    ) -> dict[str, Any]:
+        """The shared bootstrap of every planned statistic on this slice (drawn on first use)."""
+        from gate import stats as st
+
+        slot = (key, kind)
+        if slot not in self.drawn:
+            stats = self.planned[slot]
+            options = dict(
+                resamples=self.policy.stats.resamples,
+                seed=_seed_for(self.policy.stats.seed, key, kind),
+                confidence=self.policy.stats.confidence,
+                progress=self.progress,
+            )
+            if kind == "paired":
+                assert b_rank is not None
+                self.drawn[slot] = st.paired_bootstrap_many(c_rank, b_rank, stats, **options)
+            else:
+                self.drawn[slot] = st.bootstrap_many(c_rank, stats, stratified=True, **options)
+        return self.drawn[slot]
 
 
 def slice_masks(table: ScoreTable, column: str, *, check_name: str | None = None) -> list[tuple[str, NDArray[np.bool_]]]:
@@ -333,6 +370,33 @@ def _use_delong(check: Check, policy: Policy, *tables: ScoreTable) -> bool:
     )
 
 
+def _skip_reason(check: Check, key: SliceKey | None, cand: ScoreTable) -> str | None:
+    """Why a slice is not judged (None when it is); the overall set never skips, it errors."""
+    pos_w, neg_w = _weighted_counts(cand)
+    if key is not None and cand.n_pos < check.min_positives:
+        return f"skipped: {cand.n_pos} positives, fewer than min_positives = {check.min_positives}"
+    if pos_w <= 0 or neg_w <= 0:
+        missing = "positives" if pos_w <= 0 else "negatives"
+        if key is not None:
+            return f"skipped: no {missing} in this slice"
+        raise UndefinedMetricError(
+            f"{cand.source}: check {check.name!r}: {check.metric} is undefined, no {missing} in the evaluation set"
+        )
+    return None
+
+
+def _bootstrap_kind(check: Check, policy: Policy, cand: ScoreTable, base: ScoreTable | None) -> str | None:
+    """"paired", "single" or None (a closed-form interval) for this check on this slice."""
+    if check.margin is not None:
+        assert base is not None
+        return None if _use_delong(check, policy, cand, base) else "paired"
+    if _use_delong(check, policy, cand):
+        return None
+    if check.metric in ("recall_at_threshold", "fpr_at_threshold") and cand.weights is None:
+        return None
+    return "single"
+
+
 def _evaluate_one(
     ctx: _Context,
     check: Check,
@@ -344,45 +408,21 @@ def _evaluate_one(
 
     pol = ctx.policy
     conf = pol.stats.confidence
-    params = check.params
     common = dict(
         name=check.name,
         metric=check.metric,
-        params=params,
+        params=check.params,
         slice=key,
         n=cand.n,
         n_pos=cand.n_pos,
         n_neg=cand.n_neg,
     )
-    pos_w, neg_w = _weighted_counts(cand)
-    if key is not None and cand.n_pos < check.min_positives:
-        return CheckResult(
-            **common,
-            outcome="skipped",
-            passed=True,
-            value=None,
-            interval=None,
-            reason=f"skipped: {cand.n_pos} positives, fewer than min_positives = {check.min_positives}",
-        )
-    if pos_w <= 0 or neg_w <= 0:
-        missing = "positives" if pos_w <= 0 else "negatives"
-        if key is not None:
-            return CheckResult(
-                **common,
-                outcome="skipped",
-                passed=True,
-                value=None,
-                interval=None,
-                reason=f"skipped: no {missing} in this slice",
-            )
-        raise UndefinedMetricError(
-            f"{cand.source}: check {check.name!r}: {check.metric} is undefined, no {missing} in the evaluation set"
-        )
+    skip = _skip_reason(check, key, cand)
+    if skip is not None:
+        return CheckResult(**common, outcome="skipped", passed=True, value=None, interval=None, reason=skip)
 
     statistic = _statistic(check)
-    seed = _seed_for(pol.stats.seed, check.name, None if key is None else key.value)
-    resamples = pol.stats.resamples
-    c_rank = rk.rank(cand.scores, cand.labels, cand.weights)
+    c_rank = ctx.ranking(key, "candidate", cand)
     c_blocks = c_rank.blocks()
     value = float(statistic(c_blocks))
     threshold = _operating_threshold(check, c_blocks)
@@ -396,7 +436,7 @@ def _evaluate_one(
     margin = check.margin
     if margin is not None:
         assert base is not None
-        b_rank = rk.rank(base.scores, base.labels, base.weights)
+        b_rank = ctx.ranking(key, "baseline", base)
         baseline_value = float(statistic(b_rank.blocks()))
         if _use_delong(check, pol, cand, base):
             est = st.delong(c_rank)
@@ -406,21 +446,13 @@ def _evaluate_one(
             delta_interval = paired.delta_interval(confidence=conf)
             method = "delong"
         else:
-            pb = st.paired_bootstrap(
-                c_rank,
-                b_rank,
-                statistic,
-                resamples=resamples,
-                seed=seed,
-                confidence=conf,
-                progress=ctx.progress,
-            )
+            pb = ctx.replicates(key, "paired", c_rank, b_rank)[check.name]
             interval = pb.interval_a(method="percentile")
             delta = float(pb.delta)
             delta_interval = pb.delta_interval(method="percentile")
             method = "bootstrap-percentile"
     else:
-        interval, method = _single_interval(ctx, check, c_rank, cand, statistic, seed)
+        interval, method = _single_interval(ctx, check, key, c_rank, cand)
 
     decisions: list[Decision] = []
     if check.floor is not None:
@@ -457,10 +489,9 @@ def _evaluate_one(
 def _single_interval(
     ctx: _Context,
     check: Check,
+    key: SliceKey | None,
     c_rank: rk.Ranking,
     cand: ScoreTable,
-    statistic: Callable[[rk.TieBlocks], Any],
-    seed: int,
 ) -> tuple[Interval, str]:
     from gate import stats as st
 
@@ -477,15 +508,7 @@ def _single_interval(
             k, n = int(np.count_nonzero(flagged & ~cand.labels)), cand.n_neg
         method = pol.stats.proportion_method
         return st.proportion_interval(k, n, confidence=conf, method=method), method
-    boot = st.bootstrap(
-        c_rank,
-        statistic,
-        resamples=pol.stats.resamples,
-        seed=seed,
-        confidence=conf,
-        stratified=True,
-        progress=ctx.progress,
-    )
+    boot = ctx.replicates(key, "single", c_rank, None)[check.name]
     return boot.interval(method="percentile"), "bootstrap-percentile"
 
 
@@ -685,12 +708,21 @@ def evaluate(
         )
 
     ctx = _Context(policy=pol, progress=progress)
-    results: list[CheckResult] = []
+    work: list[tuple[Check, SliceKey | None, ScoreTable, ScoreTable | None]] = []
+    subsets: dict[SliceKey | None, tuple[ScoreTable, ScoreTable | None]] = {}
     for check in pol.checks:
         for key, mask in _slices(check, cand):
-            c_sub = _sub(cand, mask)
-            b_sub = None if base is None or check.margin is None else _sub(base, mask)
-            results.append(_evaluate_one(ctx, check, key, c_sub, b_sub))
+            if key not in subsets:
+                subsets[key] = (_sub(cand, mask), None if base is None else _sub(base, mask))
+            c_sub, b_sub = subsets[key]
+            work.append((check, key, c_sub, b_sub if check.margin is not None else None))
+    # Plan first, so that every check on a slice shares one bootstrap (drawn once, on first use).
+    for check, key, c_sub, b_sub in work:
+        if _skip_reason(check, key, c_sub) is None:
+            kind = _bootstrap_kind(check, pol, c_sub, b_sub)
+            if kind is not None:
+                ctx.planned.setdefault((key, kind), {})[check.name] = _statistic(check)
+    results = [_evaluate_one(ctx, check, key, c_sub, b_sub) for check, key, c_sub, b_sub in work]
 
     if pol.stats.adjust == "holm":
         results = _holm_adjust(results, pol)
