@@ -486,8 +486,11 @@ def plot_command(
         typer.echo(f"wrote {written}")
 
 
-def _trend_plots(trend: Any, directory: Path) -> list[Path]:
-    """One chart per check and slice: values with interval bars, the bound, alarms marked."""
+def _trend_plots(trend: Any, directory: Path, floors: dict[str, Any] | None = None) -> list[Path]:
+    """One chart per check and slice: values with interval bars, the bound, alarms marked.
+
+    ``floors`` maps check names to their floor (at_least / at_most) from the policy, when given.
+    """
     from gate.plots import plot_trend, slugify, trend_points
 
     _chart_directory(directory, "--plots")
@@ -500,7 +503,7 @@ def _trend_plots(trend: Any, directory: Path) -> list[Path]:
             trend_points(series),
             title=name,
             path=directory / f"trend-{slugify(name)}",
-            bound=getattr(series, "bound", None),
+            bound=(floors or {}).get(series.name),
             ylabel=series.metric,
             reference=getattr(drift, "reference", None),
         )
@@ -533,10 +536,13 @@ def trend_command(
     from gate.watch import compute_trend
 
     settings: dict[str, Any] = {}
+    floors: dict[str, Any] = {}
     if policy is not None:
         from gate.policy import load_policy
 
-        watch = load_policy(policy).watch
+        pol = load_policy(policy)
+        floors = {c.name: c.floor for c in pol.checks if c.floor is not None}
+        watch = pol.watch
         settings = {
             "cusum_k": watch.cusum_k,
             "cusum_h": watch.cusum_h,
@@ -558,7 +564,7 @@ def trend_command(
         import tempfile
 
         with tempfile.TemporaryDirectory() as scratch:
-            images = _trend_plots(trend, plots if plots is not None else Path(scratch))
+            images = _trend_plots(trend, plots if plots is not None else Path(scratch), floors)
             if html is not None:
                 from gate.report.html import write_html
 
