@@ -30,7 +30,6 @@ import json
 import os
 import re
 import signal
-import tempfile
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
@@ -39,6 +38,7 @@ from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 
+from gate._files import fsync_directory, write_bytes_atomic
 from gate.errors import BaselineError
 from gate.io import ScoreTable, fingerprint, take  # one fingerprint definition: gate.io's
 
@@ -288,7 +288,7 @@ def _ensure_directory(path: Path, where: str) -> None:
     if not path.exists():
         try:
             path.mkdir(parents=True)
-            _fsync_dir(path.resolve().parent)
+            fsync_directory(path.resolve().parent, strict=True)
         except FileExistsError:
             if not path.is_dir():
                 raise BaselineError(f"{where}: exists and is not a directory") from None
@@ -354,19 +354,15 @@ def _parquet_bytes(table: ScoreTable) -> bytes:
 
 def _write_atomic(path: Path, name: str, payload: bytes, where: str, *, stage: str) -> None:
     """Write ``payload`` to ``path / name``: temp file in the same directory, fsync, rename, fsync dir."""
-    fd, tmp = tempfile.mkstemp(prefix=f"{_TMP_PREFIX}{stage}-", dir=path)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(payload)
-            fh.flush()
-            os.fsync(fh.fileno())
-        _crash_point(f"after-{stage}-temp")
-        os.replace(tmp, path / name)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
-    _fsync_dir(path)
+    write_bytes_atomic(
+        path / name,
+        payload,
+        prefix=f"{_TMP_PREFIX}{stage}-",
+        suffix="",
+        before_replace=lambda: _crash_point(f"after-{stage}-temp"),
+        sync_directory=False,
+    )
+    fsync_directory(path, strict=True)
     if stage == "scores":
         _crash_point("after-scores-rename")
 
@@ -381,15 +377,7 @@ def _remove_superseded(path: Path, *, keep: str) -> None:
             if (_SCORES_RE.fullmatch(name) and name != keep) or name.startswith(_TMP_PREFIX):
                 with contextlib.suppress(OSError):
                     entry.unlink()
-        _fsync_dir(path)
-
-
-def _fsync_dir(path: Path) -> None:
-    fd = os.open(path, os.O_RDONLY)
-    try:
-        os.fsync(fd)
-    finally:
-        os.close(fd)
+        fsync_directory(path, strict=True)
 
 
 def _crash_point(stage: str) -> None:

@@ -35,7 +35,6 @@ import json
 import math
 import os
 import re
-import tempfile
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -44,6 +43,7 @@ from typing import IO, TYPE_CHECKING, Any
 import numpy as np
 from numpy.typing import NDArray
 
+from gate._files import write_bytes_atomic
 from gate.errors import TableError
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -864,40 +864,20 @@ def write_frame(frame: pd.DataFrame, path: str | os.PathLike[str]) -> Path:
     directory = target.parent if str(target.parent) else Path(".")
     if not directory.is_dir():
         raise TableError(f"{os.fspath(path)}: cannot write: directory {os.fspath(directory)!r} does not exist")
+
+    def write(fh: IO[bytes]) -> None:
+        if fmt == "csv":
+            _write_csv(frame, fh, gz=_is_gzip(target))
+        elif fmt == "parquet":
+            _write_parquet(frame, fh, path)
+        else:
+            _write_jsonl(frame, fh, gz=_is_gzip(target))
+
     try:
-        fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+        write_bytes_atomic(target, write)
     except OSError as exc:
         raise TableError(f"{os.fspath(path)}: cannot write ({exc.strerror or exc})") from None
-    tmp = Path(tmp_name)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            if fmt == "csv":
-                _write_csv(frame, fh, gz=_is_gzip(target))
-            elif fmt == "parquet":
-                _write_parquet(frame, fh, path)
-            else:
-                _write_jsonl(frame, fh, gz=_is_gzip(target))
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException as exc:
-        with contextlib.suppress(OSError):
-            tmp.unlink()
-        if isinstance(exc, OSError):
-            raise TableError(f"{os.fspath(path)}: cannot write ({exc.strerror or exc})") from None
-        raise
-    _fsync_directory(directory)
     return target
-
-
-def _fsync_directory(directory: Path) -> None:
-    # Makes the rename itself durable on POSIX; not available everywhere, and not essential.
-    with contextlib.suppress(OSError, AttributeError):
-        dfd = os.open(directory, os.O_RDONLY)
-        try:
-            os.fsync(dfd)
-        finally:
-            os.close(dfd)
 
 
 def _write_csv(frame: pd.DataFrame, fh: IO[bytes], *, gz: bool) -> None:

@@ -20,9 +20,7 @@ import contextlib
 import hashlib
 import io
 import math
-import os
 import re
-import tempfile
 import textwrap
 import unicodedata
 import warnings
@@ -33,6 +31,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from gate._files import new_file_mode, write_bytes_atomic
 from gate.errors import GateError, MissingExtraError
 
 if TYPE_CHECKING:
@@ -287,24 +286,11 @@ def _save(fig: Figure, path: Path | str, formats: tuple[str, ...]) -> list[Path]
 
 def _write_atomic(target: Path, data: bytes) -> None:
     """Temp file in the target directory, fsync, os.replace: never a half-written chart."""
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~_umask())  # mkstemp makes 0600; a chart is as readable as any file
-        os.replace(tmp, target)
+        # mkstemp makes 0600; a chart is as readable as any file
+        write_bytes_atomic(target, data, mode=new_file_mode())
     except OSError as exc:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
         raise GateError(f"cannot write plot {str(target)!r}: {exc.strerror or exc}") from None
-
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
 
 
 def _fmt(x: float) -> str:

@@ -14,14 +14,12 @@ string, not a number; an integer is accepted where a float is expected, a boolea
 
 from __future__ import annotations
 
-import contextlib
 import datetime as _dt
 import difflib
 import hashlib
 import json
 import os
 import re
-import tempfile
 import tomllib
 from pathlib import Path
 from typing import Any, Literal
@@ -36,6 +34,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from gate._files import write_bytes_atomic
 from gate.errors import PolicyError
 from gate.io import ColumnSpec
 from gate.results import Bound
@@ -810,41 +809,9 @@ def write_starter_policy(path: str | os.PathLike[str]) -> Path:
     if not directory.is_dir():
         raise PolicyError(f"{os.fspath(path)}: directory {os.fspath(directory)} does not exist")
     try:
-        fd, tmp_name = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.", suffix=".tmp")
+        write_bytes_atomic(target, content, mode=0o644, exclusive=True)
+    except FileExistsError:
+        raise PolicyError(f"{os.fspath(path)}: already exists; not overwriting it") from None
     except OSError as exc:
         raise PolicyError(f"{os.fspath(path)}: cannot write: {exc.strerror or exc}") from None
-    tmp = Path(tmp_name)
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(content)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.chmod(tmp, 0o644)
-        try:
-            # A hard link fails if the target appeared meanwhile: no race can overwrite a file.
-            os.link(tmp, target)
-        except FileExistsError:
-            raise PolicyError(f"{os.fspath(path)}: already exists; not overwriting it") from None
-        except OSError:
-            # Filesystems without hard links: fall back to replace (the check above still holds).
-            os.replace(tmp, target)
-    except OSError as exc:
-        raise PolicyError(f"{os.fspath(path)}: cannot write: {exc.strerror or exc}") from None
-    finally:
-        with contextlib.suppress(FileNotFoundError):
-            tmp.unlink()
-    _fsync_directory(directory)
     return target
-
-
-def _fsync_directory(directory: Path) -> None:
-    try:
-        fd = os.open(directory, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)

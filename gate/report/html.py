@@ -16,15 +16,13 @@ hostile slice value cannot smuggle in a ``javascript:`` link). The output is wel
 from __future__ import annotations
 
 import base64
-import contextlib
 import html
-import os
 import re
-import tempfile
 from collections.abc import Iterable, Sequence
 from pathlib import Path
 from typing import Literal
 
+from gate._files import new_file_mode, write_bytes_atomic
 from gate.errors import GateError
 
 __all__ = ["markdown_to_html", "render_html", "write_html"]
@@ -420,20 +418,8 @@ def write_html(
     ).encode("utf-8")
     try:
         target.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+        # mkstemp makes 0600; the page is an ordinary artifact
+        write_bytes_atomic(target, page, mode=new_file_mode())
     except OSError as exc:
-        raise GateError(f"cannot write page {str(target)!r}: {exc.strerror or exc}") from None
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(page)
-            fh.flush()
-            os.fsync(fh.fileno())
-        mask = os.umask(0)
-        os.umask(mask)
-        os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes 0600; the page is an ordinary artifact
-        os.replace(tmp, target)
-    except OSError as exc:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
         raise GateError(f"cannot write page {str(target)!r}: {exc.strerror or exc}") from None
     return target

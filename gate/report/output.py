@@ -11,19 +11,12 @@ from __future__ import annotations
 
 import os
 import stat
-import tempfile
 from pathlib import Path
 
+from gate._files import new_file_mode, write_bytes_atomic
 from gate.errors import GateError
 
 __all__ = ["write_report"]
-
-
-def _new_file_mode() -> int:
-    # The mode a plain open() would give under the current umask (mkstemp uses 0o600).
-    umask = os.umask(0)
-    os.umask(umask)
-    return 0o666 & ~umask
 
 
 def _describe(exc: OSError) -> str:
@@ -73,38 +66,8 @@ def write_report(path: str | os.PathLike[str], text: str, *, append: bool = Fals
             if old and not old.endswith(b"\n"):
                 old += b"\n"
             data = old + data
-        mode = stat.S_IMODE(st.st_mode) if st is not None else _new_file_mode()
-        fd, tmp_name = tempfile.mkstemp(prefix=f".{real.name}.", suffix=".tmp", dir=real.parent)
+        mode = stat.S_IMODE(st.st_mode) if st is not None else new_file_mode()
+        write_bytes_atomic(real, data, mode=mode)
     except OSError as exc:
         raise GateError(f"cannot write report {target}: {_describe(exc)}") from None
-    try:
-        with os.fdopen(fd, "wb") as tmp:
-            tmp.write(data)
-            tmp.flush()
-            os.fsync(tmp.fileno())
-        os.chmod(tmp_name, mode)
-        os.replace(tmp_name, real)
-    except BaseException as exc:
-        try:
-            os.unlink(tmp_name)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise GateError(f"cannot write report {target}: {_describe(exc)}") from None
-        raise
-    _fsync_directory(real.parent)
     return real
-
-
-def _fsync_directory(directory: Path) -> None:
-    # Makes the rename itself durable; not possible on every platform or file system.
-    try:
-        fd = os.open(directory, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
