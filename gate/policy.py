@@ -22,9 +22,10 @@ import os
 import re
 import tomllib
 from pathlib import Path
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
 from pydantic import (
+    AfterValidator,
     BaseModel,
     ConfigDict,
     Field,
@@ -171,6 +172,28 @@ def _num(x: float) -> str:
     return format(float(x), ".12g")
 
 
+def _whole_at_least(low: int) -> AfterValidator:
+    """A lower bound on a whole-number key, for ``Annotated[int, ...]``."""
+
+    def check(value: int) -> int:
+        if value < low:
+            raise _fail("", f"must be >= {low}, got {value}")
+        return value
+
+    return AfterValidator(check)
+
+
+def _non_negative(value: float) -> float:
+    if value < 0:
+        raise _fail("", f"must be >= 0, got {_num(value)}")
+    return value
+
+
+_WholeFrom0 = Annotated[int, _whole_at_least(0)]
+_WholeFrom1 = Annotated[int, _whole_at_least(1)]
+_NonNegative = Annotated[float, AfterValidator(_non_negative)]
+
+
 def _suggest(word: str, options: list[str] | tuple[str, ...]) -> str | None:
     match = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
     return match[0] if match else None
@@ -245,7 +268,7 @@ class StatsSection(_Model):
 
     confidence: float = 0.95
     resamples: int = 2000
-    seed: int = DEFAULT_SEED
+    seed: _WholeFrom0 = DEFAULT_SEED
     on_inconclusive: Literal["estimate", "fail", "pass"] = "estimate"
     adjust: Literal["none", "holm"] = "none"
     interval: Literal["delong", "bootstrap"] = "delong"
@@ -267,12 +290,6 @@ class StatsSection(_Model):
             raise _fail("", f"must be in 100..100000, got {value}")
         return value
 
-    @field_validator("seed")
-    @classmethod
-    def _seed(cls, value: int) -> int:
-        if value < 0:
-            raise _fail("", f"must be >= 0, got {value}")
-        return value
 
 
 class BaselineSection(_Model):
@@ -290,11 +307,11 @@ class WatchSection(_Model):
     ``min_runs`` runs (default ``reference_runs + 1``).
     """
 
-    cusum_k: float = 0.5
+    cusum_k: _NonNegative = 0.5
     # h = 4 or 5 with k = 0.5 is common practice (Montgomery's textbook recommendation [memory]);
     # h = 4 reacts sooner. docs/policy.md gives the average run lengths both imply.
     cusum_h: float = 4.0
-    reference_runs: int = 5
+    reference_runs: _WholeFrom1 = 5
     min_runs: int = 6
 
     @model_validator(mode="before")
@@ -307,25 +324,11 @@ class WatchSection(_Model):
                 data = {**data, "min_runs": reference + 1}
         return data
 
-    @field_validator("cusum_k")
-    @classmethod
-    def _k(cls, value: float) -> float:
-        if value < 0:
-            raise _fail("", f"must be >= 0, got {_num(value)}")
-        return value
-
     @field_validator("cusum_h")
     @classmethod
     def _h(cls, value: float) -> float:
         if value <= 0:
             raise _fail("", f"must be > 0, got {_num(value)}")
-        return value
-
-    @field_validator("reference_runs")
-    @classmethod
-    def _reference_runs(cls, value: int) -> int:
-        if value < 1:
-            raise _fail("", f"must be >= 1, got {value}")
         return value
 
     @model_validator(mode="after")
@@ -352,14 +355,14 @@ class Check(_Model):
     max_fpr: float | None = None
     recall: float | None = None
     threshold: float | None = None
-    cost_fp: float | None = None
-    cost_fn: float | None = None
+    cost_fp: _NonNegative | None = None
+    cost_fn: _NonNegative | None = None
     at_least: float | None = None
-    at_most: float | None = None
+    at_most: _NonNegative | None = None
     max_drop: float | None = None
-    max_rise: float | None = None
+    max_rise: _NonNegative | None = None
     by: str | None = None
-    min_positives: int = DEFAULT_MIN_POSITIVES
+    min_positives: _WholeFrom1 = DEFAULT_MIN_POSITIVES
 
     @field_validator("name", mode="before")
     @classmethod
@@ -400,25 +403,11 @@ class Check(_Model):
             raise _fail("", f"must be in (0, 1], got {_num(value)}")
         return value
 
-    @field_validator("cost_fp", "cost_fn", "at_most", "max_rise")
-    @classmethod
-    def _non_negative(cls, value: float | None) -> float | None:
-        if value is not None and value < 0:
-            raise _fail("", f"must be >= 0, got {_num(value)}")
-        return value
-
     @field_validator("at_least", "max_drop")
     @classmethod
     def _unit_closed(cls, value: float | None) -> float | None:
         if value is not None and not 0.0 <= value <= 1.0:
             raise _fail("", f"must be in [0, 1], got {_num(value)}")
-        return value
-
-    @field_validator("min_positives")
-    @classmethod
-    def _min_positives(cls, value: int) -> int:
-        if value < 1:
-            raise _fail("", f"must be >= 1, got {value}")
         return value
 
     @model_validator(mode="after")
