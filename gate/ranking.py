@@ -467,6 +467,12 @@ def _need_neg(metric: str, total_neg: NDArray[np.float64]) -> None:
         )
 
 
+def _need_both(metric: str, total_pos: NDArray[np.float64], total_neg: NDArray[np.float64]) -> None:
+    """Positive and negative weight both present (the positives are checked first)."""
+    _need_pos(metric, total_pos)
+    _need_neg(metric, total_neg)
+
+
 def _need_any(metric: str, total: NDArray[np.float64]) -> None:
     bad = ~(np.asarray(total) > 0)
     if np.any(bad):
@@ -475,8 +481,7 @@ def _need_any(metric: str, total: NDArray[np.float64]) -> None:
 
 def _require_both_classes(blocks: TieBlocks, metric: str) -> None:
     _, _, p, q = _cum(blocks)
-    _need_pos(metric, p)
-    _need_neg(metric, q)
+    _need_both(metric, p, q)
 
 
 def _unbatched(blocks: TieBlocks, fn: str) -> None:
@@ -565,8 +570,7 @@ def roc_curve(blocks: TieBlocks) -> RocCurve:
     """
     _unbatched(blocks, "roc_curve")
     tp, fp, p, q = _cum(blocks)
-    _need_pos("roc_curve", p)
-    _need_neg("roc_curve", q)
+    _need_both("roc_curve", p, q)
     zero = np.zeros(1)
     return RocCurve(
         fpr=np.concatenate([zero, fp / q]),
@@ -609,8 +613,7 @@ def roc_auc(blocks: TieBlocks) -> FloatOrArray:
     0.6666666666666666
     """
     tp, fp, p, q = _cum(blocks)
-    _need_pos("roc_auc", p)
-    _need_neg("roc_auc", q)
+    _need_both("roc_auc", p, q)
     # sum_b pos_b (N - FP_b + neg_b / 2), FP_b inclusive, as dot products (no (k,) temporaries).
     num = p * q - _rowdot(blocks.pos, fp) + 0.5 * _rowdot(blocks.pos, blocks.neg)
     # The true value lies in [0, 1]; clipping only removes the last-bit rounding of the sums.
@@ -704,8 +707,7 @@ def partial_auc(blocks: TieBlocks, *, max_fpr: float) -> PartialAuc:
         auc = roc_auc(blocks)
         return PartialAuc(raw=auc, standardized=auc, max_fpr=1.0)
     tp, fp, p, q = _cum(blocks)
-    _need_pos("partial_auc", p)
-    _need_neg("partial_auc", q)
+    _need_both("partial_auc", p, q)
     # Blocks after the first one passing FPR max_fpr add nothing: cut there (the margin covers
     # rounding in m * N; extra blocks only add zero-width segments).
     lim = m * q * (1.0 + 1e-9)
@@ -920,8 +922,7 @@ def recall_at_fpr(blocks: TieBlocks, *, fpr: float) -> OperatingPoint:
     _unbatched(blocks, "recall_at_fpr")
     alpha = _fraction("fpr", fpr)
     tp, fp, p, q = _cum(blocks)
-    _need_pos("recall_at_fpr", p)
-    _need_neg("recall_at_fpr", q)
+    _need_both("recall_at_fpr", p, q)
     n_ok = _prefix_count(fp, float(q), alpha, strict=False)  # blocks with FP / N <= alpha
     if n_ok == 0:
         return _operating_point(blocks, 0)
@@ -960,8 +961,7 @@ def recall_at_fpr_values(blocks: TieBlocks, *, fpr: float) -> FloatOrArray:
     if not blocks.batched:
         return recall_at_fpr(blocks, fpr=alpha).recall
     tp, fp, p, q = _cum(blocks)
-    _need_pos("recall_at_fpr", p)
-    _need_neg("recall_at_fpr", q)
+    _need_both("recall_at_fpr", p, q)
     feasible = fp / q[..., None] <= alpha
     best = np.max(np.where(feasible, tp, 0.0), axis=-1)  # 0: flag nothing is always feasible
     return _out(best / p)
@@ -1012,8 +1012,7 @@ def precision_at_recall(blocks: TieBlocks, *, recall: float) -> OperatingPoint:
     _unbatched(blocks, "precision_at_recall")
     r = _fraction("recall", recall)
     tp, fp, p, q = _cum(blocks)
-    _need_pos("precision_at_recall", p)
-    _need_neg("precision_at_recall", q)
+    _need_both("precision_at_recall", p, q)
     j = _best_precision_block(blocks, r)
     return _operating_point(blocks, j + 1)
 
@@ -1349,8 +1348,7 @@ def roc_hull(blocks: TieBlocks) -> tuple[NDArray[np.float64], NDArray[np.float64
     """
     _unbatched(blocks, "roc_hull")
     tp, fp, p, q = _cum(blocks)
-    _need_pos("roc_hull", p)
-    _need_neg("roc_hull", q)
+    _need_both("roc_hull", p, q)
     # Only a corner can be a vertex: the end of a block holding positives (the curve rises into
     # it) followed, after any weightless blocks, by one holding negatives (it turns right).
     live = np.flatnonzero((blocks.pos > 0) | (blocks.neg > 0))
