@@ -17,6 +17,7 @@ import xml.etree.ElementTree as ET
 from gate.report import _common as c
 from gate.report.escape import one_line, xml_safe
 from gate.results import CheckResult, Result
+from gate.stats.interval import Interval
 
 __all__ = ["render_junit"]
 
@@ -28,6 +29,16 @@ def _attr(text: object) -> str:
     return xml_safe(one_line(str(text)))
 
 
+def _interval_suffix(interval: Interval | None, *, signed: bool = False) -> str:
+    """`` [low, high] (method, 95%)`` after a value; empty without an interval."""
+    if interval is None:
+        return ""
+    return (
+        f" {c.fmt_interval(interval, signed=signed)}"
+        f" ({one_line(interval.method)}, {c.fmt_percent(interval.confidence)})"
+    )
+
+
 def _details(check: CheckResult, result: Result) -> list[str]:
     lines = [f"check: {one_line(check.name)}", f"metric: {one_line(c.metric_text(check))}"]
     lines.append(f"slice: {one_line(c.slice_text(check.slice))}")
@@ -37,23 +48,13 @@ def _details(check: CheckResult, result: Result) -> list[str]:
         outcome += f" ({c.rule_text(result.on_inconclusive, check.passed)})"
     lines.append(f"outcome: {outcome}")
     if check.value is not None:
-        candidate = f"candidate: {c.fmt_value(check.value)}"
-        if check.interval is not None:
-            candidate += (
-                f" {c.fmt_interval(check.interval)}"
-                f" ({one_line(check.interval.method)}, {c.fmt_percent(check.interval.confidence)})"
-            )
-        lines.append(candidate)
+        lines.append(f"candidate: {c.fmt_value(check.value)}{_interval_suffix(check.interval)}")
     if check.baseline_value is not None:
         lines.append(f"baseline: {c.fmt_value(check.baseline_value)}")
     if check.delta is not None:
-        difference = f"difference: {c.fmt_signed(check.delta)}"
-        if check.delta_interval is not None:
-            difference += (
-                f" {c.fmt_interval(check.delta_interval, signed=True)}"
-                f" ({one_line(check.delta_interval.method)}, {c.fmt_percent(check.delta_interval.confidence)})"
-            )
-        lines.append(difference)
+        lines.append(
+            f"difference: {c.fmt_signed(check.delta)}{_interval_suffix(check.delta_interval, signed=True)}"
+        )
     for decision in c.decisions(check):
         lines.append(f"bound: {c.bound_text(decision.bound)}: {decision.outcome}")
     if check.threshold is not None:
