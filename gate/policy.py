@@ -38,7 +38,7 @@ from pydantic_core import PydanticCustomError
 from gate._files import write_bytes_atomic
 from gate.errors import PolicyError
 from gate.io import ColumnSpec
-from gate.results import Bound
+from gate.results import Bound, BoundKind
 
 __all__ = [
     "BaselineSection",
@@ -483,19 +483,18 @@ class Check(_Model):
     @property
     def floor(self) -> Bound | None:
         """``at_least`` (higher-is-better) or ``at_most`` (lower-is-better), if set."""
-        if self.at_least is not None:
-            return Bound("at_least", float(self.at_least))
-        if self.at_most is not None:
-            return Bound("at_most", float(self.at_most))
-        return None
+        return self._first_bound("at_least", "at_most")
 
     @property
     def margin(self) -> Bound | None:
         """``max_drop`` (higher-is-better) or ``max_rise`` (lower-is-better), if set."""
-        if self.max_drop is not None:
-            return Bound("max_drop", float(self.max_drop))
-        if self.max_rise is not None:
-            return Bound("max_rise", float(self.max_rise))
+        return self._first_bound("max_drop", "max_rise")
+
+    def _first_bound(self, *kinds: BoundKind) -> Bound | None:
+        for kind in kinds:
+            value = getattr(self, kind)
+            if value is not None:
+                return Bound(kind, float(value))
         return None
 
 
