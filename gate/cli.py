@@ -364,6 +364,10 @@ def check_command(
     from gate.report import render_json, render_junit, render_markdown
     from gate.report.output import write_report
 
+    if append and summary is None:
+        raise GateError("--append needs --summary FILE (the file to append the summary to)")
+    if label is not None and history is None:
+        raise GateError("--label needs --history PATH (the label names a recorded run)")
     if plots is not None or html is not None:
         _need_plots()
     if plots is not None:  # before any report or history row is written
@@ -549,6 +553,8 @@ def trend_command(
             "reference_runs": watch.reference_runs,
             "min_runs": watch.min_runs,
         }
+    if append and summary is None:
+        raise GateError("--append needs --summary FILE (the file to append the summary to)")
     if plots is not None or html is not None:
         _need_plots()
     if plots is not None:

@@ -614,3 +614,21 @@ def test_formats_give_the_same_report(tmp_path: Path, cand: Path) -> None:
         assert report.pop("candidate_source") == str(path)
         reports.append(report)
     assert reports[0] == reports[1] == reports[2]
+
+
+def test_options_without_their_partner_are_errors(tmp_path: Path) -> None:
+    # An option that would silently do nothing is a user mistake: exit 2 with one error line.
+    from typer.testing import CliRunner
+
+    from gate.cli import app
+
+    runner = CliRunner()
+    result = runner.invoke(app, ["check", "--policy", "p.toml", "--candidate", "c.csv", "--append"])
+    assert result.exit_code == 2
+    assert result.stderr.strip() == "error: --append needs --summary FILE (the file to append the summary to)"
+    result = runner.invoke(app, ["check", "--policy", "p.toml", "--candidate", "c.csv", "--label", "x"])
+    assert result.exit_code == 2
+    assert "--label needs --history" in result.stderr
+    result = runner.invoke(app, ["trend", "--history", str(tmp_path / "h.sqlite"), "--append"])
+    assert result.exit_code == 2
+    assert "--append needs --summary" in result.stderr
