@@ -564,6 +564,15 @@ def _holm_adjust(checks: list[CheckResult], policy: Policy) -> list[CheckResult]
     return out
 
 
+def _held_by_holm(c: CheckResult, policy: Policy) -> bool:
+    """True when a bound would have failed without the adjustment and is inconclusive with it."""
+    for d in (c.floor, c.margin):
+        if d is not None and d.adjusted_p_value is not None and d.outcome == "inconclusive":
+            if _decide(d.bound, d.estimate, d.interval, policy.stats.confidence).outcome == "fail":
+                return True
+    return False
+
+
 def _fmt(x: float) -> str:
     return f"{x:.4f}"
 
@@ -730,7 +739,13 @@ def evaluate(
 
     for c in results:
         where = c.name if c.slice is None else f"{c.name} [{c.slice.column} = {c.slice.value}]"
-        if c.outcome == "inconclusive":
+        if c.outcome == "inconclusive" and _held_by_holm(c, pol):
+            warnings.append(
+                f"{where}: inconclusive after Holm's adjustment (the interval lies on the failing side, "
+                f"but not by enough across {len(results)} check results); "
+                f"{'passed' if c.passed else 'failed'} by the {pol.stats.on_inconclusive!r} rule"
+            )
+        elif c.outcome == "inconclusive":
             warnings.append(
                 f"{where}: inconclusive (the interval straddles the bound); the evaluation set is too "
                 f"small to be sure, {'passed' if c.passed else 'failed'} by the {pol.stats.on_inconclusive!r} rule"

@@ -192,6 +192,8 @@ def test_holm_turns_a_marginal_fail_into_inconclusive() -> None:
     assert holm.verdict == "pass"
     assert holm.checks[1].outcome == "pass"
     assert "Holm" in holm.methods
+    assert any("inconclusive after Holm's adjustment" in w for w in holm.warnings)
+    assert not any("auc: inconclusive (the interval straddles" in w for w in holm.warnings)
     # With the default rule the point estimate still decides: 0.8932 < 0.95349 fails.
     estimate = evaluate(policy(checks, stats='adjust = "holm"'), hm_frame())
     assert estimate.checks[0].outcome == "inconclusive" and estimate.verdict == "fail"
