@@ -41,6 +41,7 @@ from numpy.typing import NDArray
 from gate import ranking as rk
 from gate.errors import BaselineError, TableError, UndefinedMetricError
 from gate.results import Bound, CheckResult, Decision, Result, SliceKey
+from gate.stats._common import norm_cdf, z_two_sided
 from gate.stats.interval import Interval
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -51,19 +52,6 @@ if TYPE_CHECKING:  # pragma: no cover
 Progress = Callable[[int, int], None]
 
 MISSING_SLICE = "(missing)"
-
-_METRIC_LABELS = {
-    "roc_auc": "ROC AUC",
-    "average_precision": "average precision",
-    "partial_auc": "partial AUC (McClish)",
-    "recall_at_fpr": "recall at FPR",
-    "precision_at_recall": "precision at recall",
-    "recall_at_threshold": "recall at threshold",
-    "fpr_at_threshold": "FPR at threshold",
-    "expected_cost": "expected cost",
-    "brier": "Brier score",
-}
-
 
 def _statistic(check: Check) -> Callable[[rk.TieBlocks], Any]:
     """The check's metric as a function of (possibly batched) tie blocks."""
@@ -80,9 +68,9 @@ def _statistic(check: Check) -> Callable[[rk.TieBlocks], Any]:
     if m == "precision_at_recall":
         return lambda b: rk.precision_at_recall_values(b, recall=p["recall"])
     if m == "recall_at_threshold":
-        return lambda b: _rate(rk.confusion_at(b, threshold=p["threshold"]), "recall")
+        return lambda b: rk.recall_at_threshold(b, threshold=p["threshold"])
     if m == "fpr_at_threshold":
-        return lambda b: _rate(rk.confusion_at(b, threshold=p["threshold"]), "fpr")
+        return lambda b: rk.fpr_at_threshold(b, threshold=p["threshold"])
     if m == "expected_cost":
         return lambda b: rk.expected_cost(
             b, threshold=p["threshold"], cost_fp=p["cost_fp"], cost_fn=p["cost_fn"]
@@ -90,27 +78,6 @@ def _statistic(check: Check) -> Callable[[rk.TieBlocks], Any]:
     if m == "brier":
         return rk.brier
     raise UndefinedMetricError(f"unknown metric {m!r}")  # the policy layer rejects these first
-
-
-def _rate(conf: rk.Confusion, which: str) -> Any:
-    tp, fp, tn, fn = (np.asarray(x, dtype=np.float64) for x in (conf.tp, conf.fp, conf.tn, conf.fn))
-    if which == "recall":
-        out = tp / (tp + fn)
-    else:
-        out = fp / (fp + tn)
-    return float(out) if out.ndim == 0 else out
-
-
-def _z(confidence: float) -> float:
-    # statistics.NormalDist: exact enough (inverse CDF to ~1e-15) and avoids importing scipy.stats,
-    # which alone costs about a second of start-up.
-    from statistics import NormalDist
-
-    return NormalDist().inv_cdf(0.5 + confidence / 2.0)
-
-
-def _norm_cdf(x: float) -> float:
-    return 0.5 * math.erfc(-x / math.sqrt(2.0))
 
 
 def _seed_for(base_seed: int, key: SliceKey | None, kind: str) -> int:
@@ -125,12 +92,6 @@ def _seed_for(base_seed: int, key: SliceKey | None, kind: str) -> int:
     kind_tag = zlib.crc32(kind.encode("ascii"))
     ss = np.random.SeedSequence([int(base_seed) % (2**63), tag, kind_tag])
     return int(ss.generate_state(1, dtype=np.uint64)[0] % (2**63))
-
-
-@dataclass(frozen=True)
-class _Judged:
-    outcome: str
-    decision: Decision
 
 
 def _decide(bound: Bound, estimate: float, interval: Interval, confidence: float) -> Decision:
@@ -162,10 +123,10 @@ def _decide(bound: Bound, estimate: float, interval: Interval, confidence: float
         else:
             outcome = "inconclusive"
     # One-sided p of H0 "the requirement holds" from the normal approximation with the interval's SE.
-    se = interval.half_width / _z(confidence)
+    se = interval.half_width / z_two_sided(confidence)
     if se > 0:
         zstat = (estimate - limit) / se if ok_side_low else (limit - estimate) / se
-        p_fail = _norm_cdf(zstat)
+        p_fail = norm_cdf(zstat)
     else:
         p_fail = 0.0 if outcome == "fail" else 1.0
     return Decision(bound=bound, outcome=outcome, estimate=float(estimate), interval=interval, p_value=p_fail)
@@ -778,11 +739,6 @@ def evaluate(
         methods=_methods_line(pol, results),
         notes=notes,
     )
-
-
-def metric_label(metric: str) -> str:
-    """A readable name for a metric key (for reports)."""
-    return _METRIC_LABELS.get(metric, metric)
 
 
 def _auc_scale(policy: Policy) -> str:
