@@ -209,14 +209,7 @@ def demo_command(
         frame = demo.nightly_scores(night)
         run = evaluate(nightly, frame)
         record_run(history, run, label=f"night-{night + 1:02d}", run_time=start + timedelta(days=night))
-    watch = nightly.watch
-    trend = compute_trend(
-        load_runs(history),
-        cusum_k=watch.cusum_k,
-        cusum_h=watch.cusum_h,
-        reference_runs=watch.reference_runs,
-        min_runs=watch.min_runs,
-    )
+    trend = compute_trend(load_runs(history), **_watch_settings(nightly))
     markdown = render_trend_markdown(trend, title="rankgate trend: nightly leak scoring")
     write_report(out / "trend.md", markdown)
     say(markdown.rstrip("\n"))
@@ -295,8 +288,29 @@ def _chart_directory(directory: Path, option: str) -> None:
         raise GateError(f"{option} {directory}: cannot create the directory ({exc.strerror or exc})") from None
 
 
+def _watch_settings(policy: Any) -> dict[str, Any]:
+    """The policy's [watch] section as keyword arguments of gate.watch.compute_trend."""
+    watch = policy.watch
+    return {
+        "cusum_k": watch.cusum_k,
+        "cusum_h": watch.cusum_h,
+        "reference_runs": watch.reference_runs,
+        "min_runs": watch.min_runs,
+    }
+
+
+def _chart_tables(policy: Any, candidate: Any, baseline: Any) -> tuple[Any, Any]:
+    """Candidate and baseline tables paired by id (as the gate pairs them), for the charts."""
+    if baseline is None:
+        return candidate, None
+    from gate.baseline import align
+
+    al = align(candidate, baseline, on_mismatch=policy.baseline.on_mismatch)
+    return al.candidate, al.baseline
+
+
 def _check_plots(
-    result: Any, policy: Any, candidate: Any, baseline: Any, directory: Path, *, option: str = "--plots"
+    policy: Any, candidate: Any, baseline: Any, directory: Path, *, option: str = "--plots"
 ) -> list[Path]:
     """ROC and precision-recall charts of candidate (and baseline) for the policy's checks."""
     from gate import ranking as rk
@@ -316,14 +330,13 @@ def _check_plots(
         path=directory / "roc",
     )
     images += plot_pr(curves, title="Precision-recall curve", path=directory / "precision-recall")
-    for column in getattr(policy, "by_columns", ()):
+    from gate.evaluation import slice_masks
+    from gate.io import subset
+
+    for column in policy.by_columns:
         if column not in candidate.columns:
             continue
-        from gate.evaluation import slice_masks
-
         for value, mask in slice_masks(candidate, column):
-            from gate.io import subset
-
             sub = {"candidate": subset(candidate, mask)}
             if baseline is not None:
                 sub["baseline"] = subset(baseline, mask)
@@ -390,16 +403,10 @@ def check_command(
     if plots is not None or html is not None:
         import tempfile
 
-        from gate.baseline import align
-
-        base_aligned = None
-        cand_aligned = cand_table
-        if base_table is not None:
-            al = align(cand_table, base_table, on_mismatch=pol.baseline.on_mismatch)
-            cand_aligned, base_aligned = al.candidate, al.baseline
+        cand_aligned, base_aligned = _chart_tables(pol, cand_table, base_table)
         with tempfile.TemporaryDirectory() as scratch:
             directory = plots if plots is not None else Path(scratch)
-            images = _check_plots(result, pol, cand_aligned, base_aligned, directory)
+            images = _check_plots(pol, cand_aligned, base_aligned, directory)
             if html is not None:
                 from gate.report.html import write_html
 
@@ -463,7 +470,6 @@ def plot_command(
 ) -> None:
     """Draw ROC (with convex hull and the policy's FPR cap) and precision-recall curves."""
     _need_plots()
-    from gate.baseline import align
     from gate.evaluation import baseline_table, load_inputs
     from gate.policy import parse_policy
 
@@ -474,12 +480,8 @@ def plot_command(
     else:
         pol = parse_policy('[[check]]\nmetric = "roc_auc"\nat_least = 0.5\n', source="<default>")
     cand_table, base_obj = load_inputs(pol, candidate, baseline)
-    base_table = baseline_table(base_obj)
-    base_aligned = None
-    if base_table is not None:
-        al = align(cand_table, base_table, on_mismatch=pol.baseline.on_mismatch)
-        cand_table, base_aligned = al.candidate, al.baseline
-    images = _check_plots(None, pol, cand_table, base_aligned, out, option="--out")
+    cand_table, base_aligned = _chart_tables(pol, cand_table, baseline_table(base_obj))
+    images = _check_plots(pol, cand_table, base_aligned, out, option="--out")
     for image in images:
         typer.echo(f"wrote {image}")
     if html is not None:
@@ -546,13 +548,7 @@ def trend_command(
 
         pol = load_policy(policy)
         floors = {c.name: c.floor for c in pol.checks if c.floor is not None}
-        watch = pol.watch
-        settings = {
-            "cusum_k": watch.cusum_k,
-            "cusum_h": watch.cusum_h,
-            "reference_runs": watch.reference_runs,
-            "min_runs": watch.min_runs,
-        }
+        settings = _watch_settings(pol)
     if append and summary is None:
         raise GateError("--append needs --summary FILE (the file to append the summary to)")
     if plots is not None or html is not None:
