@@ -479,11 +479,6 @@ def _need_any(metric: str, total: NDArray[np.float64]) -> None:
         raise UndefinedMetricError(f"{metric} is undefined: no examples with positive weight{_where(total, bad)}")
 
 
-def _require_both_classes(blocks: TieBlocks, metric: str) -> None:
-    _, _, p, q = _cum(blocks)
-    _need_both(metric, p, q)
-
-
 def _unbatched(blocks: TieBlocks, fn: str) -> None:
     if blocks.batched:
         raise ValueError(f"{fn} takes unbatched tie blocks; got pos of shape {blocks.pos.shape}")
