@@ -962,13 +962,13 @@ def recall_at_fpr_values(blocks: TieBlocks, *, fpr: float) -> FloatOrArray:
     return _out(best / p)
 
 
-def _precision_choice(blocks: TieBlocks, r: float) -> tuple[NDArray[np.float64], NDArray[np.bool_]]:
+def _precision_choice(blocks: TieBlocks, r: float) -> NDArray[np.float64]:
+    """Precision of each block where recall >= ``r`` and something is flagged, -1 elsewhere (batched)."""
     tp, fp, p, _ = _cum(blocks)
     _need_pos("precision_at_recall", p)
     flagged = tp + fp
     feasible = (tp / p[..., None] >= r) & (flagged > 0)
-    prec = np.divide(tp, flagged, out=np.full_like(tp, -1.0), where=feasible)
-    return prec, feasible
+    return np.divide(tp, flagged, out=np.full_like(tp, -1.0), where=feasible)
 
 
 def precision_at_recall(blocks: TieBlocks, *, recall: float) -> OperatingPoint:
@@ -1046,8 +1046,7 @@ def precision_at_recall_values(blocks: TieBlocks, *, recall: float) -> FloatOrAr
         _need_pos("precision_at_recall", p)
         j = _best_precision_block(blocks, r)
         return float(tp[j] / (tp[j] + fp[j]))
-    prec, _ = _precision_choice(blocks, r)
-    return _out(prec.max(axis=-1))
+    return _out(_precision_choice(blocks, r).max(axis=-1))
 
 
 # ----------------------------------------------------------------------------------------------
