@@ -86,9 +86,6 @@ DEFAULT_CUSUM_K = 0.5
 DEFAULT_CUSUM_H = 4.0
 DEFAULT_REFERENCE_RUNS = 5
 
-# Used only when no run of a series carries a bound (every check in a policy has one).
-_LOWER_IS_BETTER_METRICS = frozenset({"expected_cost", "brier", "fpr_at_threshold"})
-
 Role = Literal["reference", "monitored", "left out"]
 DriftStatus = Literal["fired", "quiet", "too few runs"]
 
@@ -342,7 +339,11 @@ def _direction(checks: Sequence[CheckResult], metric: str) -> tuple[bool, list[s
                 directions.add(decision.bound.higher_is_better)
                 latest = decision.bound.higher_is_better
     if latest is None:
-        latest = metric not in _LOWER_IS_BETTER_METRICS
+        # Only when no run of the series carries a bound (every check in a policy has one); the
+        # import stays here so that gate.watch does not load pydantic for this rare case.
+        from gate.policy import LOWER_IS_BETTER
+
+        latest = metric not in LOWER_IS_BETTER
         notes.append(
             f"no run carries a bound; taken as {'higher' if latest else 'lower'} is better from the metric"
         )
