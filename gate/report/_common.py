@@ -12,7 +12,7 @@ written (4 decimals when exact, else the shortest round-trip form), intervals as
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 
 from gate.results import Bound, CheckResult, Decision, Result, SliceKey
@@ -86,10 +86,15 @@ def decisions(check: CheckResult) -> list[Decision]:
 
 def metric_text(check: CheckResult) -> str:
     """``roc_auc`` or ``recall_at_fpr (fpr=0.01)``; parameters in sorted order."""
-    if not check.params:
-        return check.metric
-    params = ", ".join(f"{k}={fmt_param(v)}" for k, v in sorted(check.params.items()))
-    return f"{check.metric} ({params})"
+    return metric_params_text(check.metric, check.params)
+
+
+def metric_params_text(metric: str, params: Mapping[str, float]) -> str:
+    """:func:`metric_text` from the metric's name and parameters (for a trend series too)."""
+    if not params:
+        return metric
+    shown = ", ".join(f"{k}={fmt_param(v)}" for k, v in sorted(params.items()))
+    return f"{metric} ({shown})"
 
 
 def slice_text(key: SliceKey | None) -> str:

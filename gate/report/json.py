@@ -26,7 +26,7 @@ import numbers
 from typing import Any
 
 from gate.report import _common as c
-from gate.results import CheckResult, Decision, Result
+from gate.results import CheckResult, Decision, Result, SliceKey
 from gate.stats.interval import Interval
 
 __all__ = ["SCHEMA_VERSION", "render_json", "report_dict"]
@@ -53,6 +53,10 @@ def _interval(interval: Interval | None) -> list[float | None] | None:
     return [_float(interval.low), _float(interval.high)]
 
 
+def _slice(key: SliceKey | None) -> dict[str, str] | None:
+    return None if key is None else {"column": str(key.column), "value": str(key.value)}
+
+
 def _decision(decision: Decision | None) -> dict[str, Any] | None:
     if decision is None:
         return None
@@ -73,7 +77,7 @@ def _check(check: CheckResult, result: Result) -> dict[str, Any]:
         "name": str(check.name),
         "metric": str(check.metric),
         "params": {str(k): _float(v) for k, v in sorted(check.params.items())},
-        "slice": None if check.slice is None else {"column": str(check.slice.column), "value": str(check.slice.value)},
+        "slice": _slice(check.slice),
         "outcome": check.outcome,
         "passed": bool(check.passed),
         "value": _float(check.value),

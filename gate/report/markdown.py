@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from gate.report import _common as c
 from gate.report.escape import escape_markdown
-from gate.results import CheckResult, Result
+from gate.results import CheckResult, Result, SliceKey
 
 __all__ = ["render_markdown"]
 
@@ -30,10 +30,15 @@ def _esc(text: str, *, cell: bool = False) -> str:
 
 def _label(check: CheckResult) -> str:
     """The check name with its slice, each part cut to the cell length."""
-    name = _esc(check.name, cell=True)
-    if check.slice is None:
-        return name
-    return f"{name} \\[{_esc(c.slice_text(check.slice), cell=True)}\\]"
+    return _name_label(check.name, check.slice)
+
+
+def _name_label(name: str, key: SliceKey | None) -> str:
+    """Escaped ``name`` or ``name [column = value]`` (for a trend series too)."""
+    escaped = _esc(name, cell=True)
+    if key is None:
+        return escaped
+    return f"{escaped} \\[{_esc(c.slice_text(key), cell=True)}\\]"
 
 
 def _outcome_cell(check: CheckResult) -> str:

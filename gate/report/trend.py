@@ -13,26 +13,18 @@ shortest round-trip ``repr``, non-finite floats as ``null``, ASCII only, times a
 from __future__ import annotations
 
 import json as _json
-import math
 from datetime import datetime, timezone
 from typing import Any
 
 from gate.report import _common as c
 from gate.report.escape import escape_markdown
-from gate.results import SliceKey
-from gate.stats.interval import Interval
+from gate.report.json import _float, _interval, _slice
+from gate.report.markdown import _esc, _name_label, _section
 from gate.watch import Alarm, Series, TrendPoint, TrendResult
 
 __all__ = ["TREND_SCHEMA_VERSION", "render_trend_json", "render_trend_markdown", "trend_dict"]
 
 TREND_SCHEMA_VERSION = 1
-
-CELL_MAX = 80
-LINE_MAX = 300
-
-
-def _esc(text: str, *, cell: bool = False) -> str:
-    return escape_markdown(text, max_length=CELL_MAX if cell else LINE_MAX)
 
 
 def _when(moment: datetime) -> str:
@@ -43,19 +35,9 @@ def _iso(moment: datetime) -> str:
     return moment.astimezone(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 
 
-def _metric_text(series: Series) -> str:
-    if not series.params:
-        return series.metric
-    params = ", ".join(f"{k}={c.fmt_param(v)}" for k, v in sorted(series.params.items()))
-    return f"{series.metric} ({params})"
-
-
 def _series_label(series: Series) -> str:
     """Escaped ``name`` or ``name [column = value]``."""
-    name = _esc(series.name, cell=True)
-    if series.slice is None:
-        return name
-    return f"{name} \\[{_esc(c.slice_text(series.slice), cell=True)}\\]"
+    return _name_label(series.name, series.slice)
 
 
 def _run_ref(run_id: int, label: str | None, moment: datetime | None = None) -> str:
@@ -123,7 +105,7 @@ def _row(series: Series, confidence: float | None) -> str:
     reference = c.fmt_value(series.drift.reference)
     cells = [
         _esc(series.name, cell=True),
-        _esc(_metric_text(series), cell=True),
+        _esc(c.metric_params_text(series.metric, series.params), cell=True),
         _esc(c.slice_text(series.slice), cell=True),
         runs,
         _value_cell(series.points[-1], confidence),  # the latest run, even when it was skipped
@@ -153,12 +135,6 @@ def _alarm_line(series: Series, alarm: Alarm, h: float) -> str:
         f"{c.fmt_interval(alarm.interval, signed=role == 'difference')} wholly on the failing side of "
         f"{c.bound_text(alarm.bound)}"
     )
-
-
-def _section(title: str, items: list[str]) -> list[str]:
-    if not items:
-        return []
-    return [f"**{title}**", "", *(f"- {item}" for item in items), ""]
 
 
 def _counts(trend: TrendResult) -> tuple[int, int, int]:
@@ -225,23 +201,6 @@ def render_trend_markdown(trend: TrendResult, *, title: str | None = None) -> st
 
 
 # --- JSON ------------------------------------------------------------------------------------------
-
-
-def _float(x: Any) -> float | None:
-    if x is None:
-        return None
-    value = float(x)
-    return value if math.isfinite(value) else None
-
-
-def _interval(interval: Interval | None) -> list[float | None] | None:
-    if interval is None:
-        return None
-    return [_float(interval.low), _float(interval.high)]
-
-
-def _slice(key: SliceKey | None) -> dict[str, str] | None:
-    return None if key is None else {"column": str(key.column), "value": str(key.value)}
 
 
 def _point_dict(point: TrendPoint) -> dict[str, Any]:
