@@ -6,10 +6,10 @@ weights) summed per block of the ranking that was sorted once: no re-sort per re
 replicate gives the same counts to the same examples under the candidate's and the baseline's
 rankings.
 
-Determinism: one ``numpy.random.Generator`` is built from ``seed``; replicate ``i`` takes the
-``i``-th run of ``n`` uniform doubles from it (a double is always one 64-bit word of the stream),
-so the replicates do not depend on ``chunk_size``, which only bounds memory: the draws and the
-statistic handle ``chunk_size`` replicates at a time.
+Determinism: one ``numpy.random.Generator`` is built from ``seed``; the replicates draw their
+indices from it one after another, with the same calls in the same order however they are
+chunked, so the replicates do not depend on ``chunk_size``, which only bounds memory: the draws
+and the statistic handle ``chunk_size`` replicates at a time.
 """
 
 from __future__ import annotations
@@ -274,8 +274,8 @@ def bootstrap(
     -----
     Replicate counts: for each replicate, ``m`` indices drawn uniformly with replacement among the
     ``m`` positives and ``n`` among the ``n`` negatives (stratified), or ``m + n`` among all
-    examples, each index ``floor(u * size)`` from a uniform double ``u``; an example's count times
-    its table weight is its replicate weight. Replicate tie blocks are weighted ``bincount`` sums
+    examples, by ``Generator.integers`` (unbiased bounded draws); an example's count times its
+    table weight is its replicate weight. Replicate tie blocks are weighted ``bincount`` sums
     over the examples' blocks: O(n) per replicate, no sort.
 
     BCa acceleration is estimated by a jackknife: delete-one when there are at most 200
