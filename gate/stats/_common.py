@@ -14,20 +14,17 @@ from gate.errors import UndefinedMetricError
 from gate.ranking import Ranking
 
 
-def check_confidence(confidence: float, *, name: str = "confidence") -> float:
-    """Return ``confidence`` as a float, or raise ValueError unless 0 < confidence < 1."""
-    c = float(confidence)
-    if not (math.isfinite(c) and 0.0 < c < 1.0):
-        raise ValueError(f"{name} must be strictly between 0 and 1, got {confidence!r}")
-    return c
-
-
 def check_probability(value: float, *, name: str) -> float:
     """Return ``value`` as a float, or raise ValueError unless 0 < value < 1."""
     v = float(value)
     if not (math.isfinite(v) and 0.0 < v < 1.0):
         raise ValueError(f"{name} must be strictly between 0 and 1, got {value!r}")
     return v
+
+
+def check_confidence(confidence: float, *, name: str = "confidence") -> float:
+    """Return ``confidence`` as a float, or raise ValueError unless 0 < confidence < 1."""
+    return check_probability(confidence, name=name)
 
 
 def check_finite(value: float, *, name: str) -> float:
