@@ -27,6 +27,7 @@ pandas and pyarrow are imported inside the functions that need them.
 
 from __future__ import annotations
 
+import collections
 import contextlib
 import csv
 import difflib
@@ -291,11 +292,17 @@ def _read_parquet(path: Path, source: str) -> _Raw:
             raise _os_error(source, exc) from None
         raise TableError(f"{source}: not a readable Parquet file ({' '.join(str(exc).split())})") from None
     names = [str(n) for n in arrow.column_names]
-    for name in names:
-        if names.count(name) > 1:
-            raise TableError(f"{source}: column name {name!r} appears twice")
+    _check_unique_names(names, source)
     columns = {name: _arrow_to_numpy(arrow.column(i)) for i, name in enumerate(names)}
     return _Raw(columns, arrow.num_rows, source, _plain_rows)
+
+
+def _check_unique_names(names: list[str], source: str) -> None:
+    """TableError naming the first column name (in column order) that occurs more than once."""
+    counts = collections.Counter(names)
+    for name in names:
+        if counts[name] > 1:
+            raise TableError(f"{source}: column name {name!r} appears twice")
 
 
 def _arrow_to_numpy(column: Any) -> NDArray[Any]:
@@ -731,9 +738,7 @@ def table_from_frame(
     Rows are named by their position from 1 ("row 7"), not by the frame's index.
     """
     names = [str(c) for c in frame.columns]
-    for name in names:
-        if names.count(name) > 1:
-            raise TableError(f"{source}: column name {name!r} appears twice")
+    _check_unique_names(names, source)
     columns: dict[str, NDArray[Any]] = {}
     for name, column in zip(names, frame.columns, strict=True):
         series = frame[column]
