@@ -43,7 +43,7 @@ if TYPE_CHECKING:
 __all__ = [
     "FORMATS",
     "INSTALL_HINT",
-    "TrendPoint",
+    "ChartPoint",
     "plot_pr",
     "plot_roc",
     "plot_trend",
@@ -105,7 +105,7 @@ def require_matplotlib() -> Any:
 
 
 @dataclass(frozen=True)
-class TrendPoint:
+class ChartPoint:
     """One run of one check in a trend chart.
 
     Attributes
@@ -538,7 +538,7 @@ def _pr_figure(curves: Mapping[str, TieBlocks], *, title: str) -> Figure:
 
 
 def plot_trend(
-    series: Sequence[TrendPoint],
+    series: Sequence[ChartPoint],
     *,
     title: str,
     path: Path | str,
@@ -551,7 +551,7 @@ def plot_trend(
 
     Parameters
     ----------
-    series : the runs in order (oldest first); see :class:`TrendPoint`.
+    series : the runs in order (oldest first); see :class:`ChartPoint`.
     title : chart title; name the check.
     path, formats : as in :func:`plot_roc`.
     bound : the check's bound, drawn as a horizontal line: a number, or a
@@ -579,14 +579,14 @@ def plot_trend(
         return _save(fig, path, _check_formats(formats))
 
 
-def _check_series(series: Sequence[TrendPoint]) -> list[TrendPoint]:
+def _check_series(series: Sequence[ChartPoint]) -> list[ChartPoint]:
     points = list(series)
     if not points:
         raise GateError("trend plot needs at least one run, got none")
     for i, pt in enumerate(points):
-        where = f"trend run {i} ({pt.label!r})" if isinstance(pt, TrendPoint) else f"trend run {i}"
-        if not isinstance(pt, TrendPoint):
-            raise GateError(f"{where} is a {type(pt).__name__}, not a TrendPoint")
+        where = f"trend run {i} ({pt.label!r})" if isinstance(pt, ChartPoint) else f"trend run {i}"
+        if not isinstance(pt, ChartPoint):
+            raise GateError(f"{where} is a {type(pt).__name__}, not a ChartPoint")
         nums = {"value": pt.value, "low": pt.low, "high": pt.high}
         for key, v in nums.items():
             if v is not None and not math.isfinite(float(v)):
@@ -625,7 +625,7 @@ def _bound_line(bound: float | Bound | None) -> tuple[float, str] | None:
 
 
 def _trend_figure(
-    series: Sequence[TrendPoint],
+    series: Sequence[ChartPoint],
     *,
     title: str,
     bound: float | Bound | None,
@@ -738,7 +738,7 @@ def _fallback_y(value: np.ndarray, line: tuple[float, str] | None) -> float:
     return float(np.median(finite)) if finite.size else 0.0
 
 
-def trend_points(series: Any, *, margin: bool = False) -> list[TrendPoint]:
+def trend_points(series: Any, *, margin: bool = False) -> list[ChartPoint]:
     """Chart points from one :class:`gate.watch.Series` (one check in one slice over the runs).
 
     Parameters
@@ -751,7 +751,7 @@ def trend_points(series: Any, *, margin: bool = False) -> list[TrendPoint]:
 
     Returns
     -------
-    list of TrendPoint : oldest first. A run's label is its own label, else its time
+    list of ChartPoint : oldest first. A run's label is its own label, else its time
     (``YYYY-MM-DD HH:MM``), else ``run <id>``. Alarm kinds are "bound" and "drift (CUSUM)", or
     "bound + drift (CUSUM)" for a run that raised both.
     """
@@ -771,7 +771,7 @@ def trend_points(series: Any, *, margin: bool = False) -> list[TrendPoint]:
             label = f"run {p.run_id}"
         raised = sorted(kinds.get(p.run_id, []))  # "bound" before "drift (CUSUM)"
         out.append(
-            TrendPoint(
+            ChartPoint(
                 label=label,
                 value=value,
                 low=interval.low if interval is not None and value is not None else None,

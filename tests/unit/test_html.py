@@ -332,10 +332,10 @@ def test_report_markdown_round_trips_hostile_names() -> None:
 
 def test_page_with_real_charts(tmp_path) -> None:
     pytest.importorskip("matplotlib")
-    from gate.plots import TrendPoint, plot_trend
+    from gate.plots import ChartPoint, plot_trend
 
     files = plot_trend(
-        [TrendPoint("r1", 0.7, 0.65, 0.75), TrendPoint("r2", 0.6, 0.55, 0.65, alarm="cusum")],
+        [ChartPoint("r1", 0.7, 0.65, 0.75), ChartPoint("r2", 0.6, 0.55, 0.65, alarm="cusum")],
         title="recall <north>",
         path=tmp_path / "trend",
     )

@@ -21,7 +21,7 @@ from gate.results import Bound
 mpl = pytest.importorskip("matplotlib")
 
 from gate import plots  # noqa: E402  (after the skip: the module imports fine without matplotlib, but the tests need it)
-from gate.plots import TrendPoint, plot_pr, plot_roc, plot_trend, require_matplotlib, slugify  # noqa: E402
+from gate.plots import ChartPoint, plot_pr, plot_roc, plot_trend, require_matplotlib, slugify  # noqa: E402
 
 SVG_NS = "{http://www.w3.org/2000/svg}"
 
@@ -93,7 +93,7 @@ def test_missing_matplotlib_raises_with_install_hint(monkeypatch, tmp_path, hm) 
     calls = [
         lambda: plot_roc({"candidate": hm}, title="t", path=tmp_path / "roc"),
         lambda: plot_pr({"candidate": hm}, title="t", path=tmp_path / "pr"),
-        lambda: plot_trend([TrendPoint("r1", 0.5)], title="t", path=tmp_path / "trend"),
+        lambda: plot_trend([ChartPoint("r1", 0.5)], title="t", path=tmp_path / "trend"),
     ]
     for call in calls:
         with pytest.raises(MissingExtraError, match=r"optional extra"):
@@ -265,12 +265,12 @@ def test_pr_prevalence_drawn_once_for_the_same_eval_set(pair) -> None:
 # --- trend --------------------------------------------------------------------------------------
 
 
-def trend_series() -> list[TrendPoint]:
-    pts = [TrendPoint(f"run-{i}", 0.70 + 0.01 * (i % 3), 0.66 + 0.01 * (i % 3), 0.74 + 0.01 * (i % 3)) for i in range(6)]
-    pts.append(TrendPoint("run-6", 0.64, 0.60, 0.68, alarm="bound"))
-    pts.append(TrendPoint("run-7", None))
-    pts += [TrendPoint(f"run-{i}", 0.62, 0.58, 0.66, alarm="cusum") for i in (8, 9)]
-    pts.append(TrendPoint("run-10", 0.66))  # a value without an interval
+def trend_series() -> list[ChartPoint]:
+    pts = [ChartPoint(f"run-{i}", 0.70 + 0.01 * (i % 3), 0.66 + 0.01 * (i % 3), 0.74 + 0.01 * (i % 3)) for i in range(6)]
+    pts.append(ChartPoint("run-6", 0.64, 0.60, 0.68, alarm="bound"))
+    pts.append(ChartPoint("run-7", None))
+    pts += [ChartPoint(f"run-{i}", 0.62, 0.58, 0.66, alarm="cusum") for i in (8, 9)]
+    pts.append(ChartPoint("run-10", 0.66))  # a value without an interval
     return pts
 
 
@@ -319,7 +319,7 @@ def test_trend_error_bars_span_the_interval() -> None:
     ],
 )
 def test_trend_bound_line(bound, y, label) -> None:
-    fig = plots._trend_figure([TrendPoint("a", 0.0), TrendPoint("b", 0.01)], title="t", bound=bound, ylabel="v")
+    fig = plots._trend_figure([ChartPoint("a", 0.0), ChartPoint("b", 0.01)], title="t", bound=bound, ylabel="v")
     line = next(ln for ln in fig.axes[0].get_lines() if ln.get_label() == label)
     assert np.allclose(line.get_ydata(), y)
 
@@ -331,7 +331,7 @@ def test_trend_files_open_and_parse(tmp_path) -> None:
 
 
 def test_trend_many_runs_thins_ticks() -> None:
-    pts = [TrendPoint(f"2024-05-{i:03d}", 0.5) for i in range(100)]
+    pts = [ChartPoint(f"2024-05-{i:03d}", 0.5) for i in range(100)]
     fig = plots._trend_figure(pts, title="t", bound=None, ylabel="v")
     labels = [t.get_text() for t in fig.axes[0].get_xticklabels()]
     assert 10 <= len(labels) <= 25 and labels[0] == "2024-05-000"
@@ -341,11 +341,11 @@ def test_trend_many_runs_thins_ticks() -> None:
     ("series", "match"),
     [
         ([], "at least one run"),
-        ([TrendPoint("a", float("nan"))], r"trend run 0 \('a'\): value is nan"),
-        ([TrendPoint("a", 0.5, 0.6, 0.7)], "does not contain value 0.5"),
-        ([TrendPoint("a", 0.5, 0.4, None)], "needs both low and high"),
-        ([TrendPoint("a", None, 0.4, 0.6)], "without a value"),
-        ([("a", 0.5)], "not a TrendPoint"),
+        ([ChartPoint("a", float("nan"))], r"trend run 0 \('a'\): value is nan"),
+        ([ChartPoint("a", 0.5, 0.6, 0.7)], "does not contain value 0.5"),
+        ([ChartPoint("a", 0.5, 0.4, None)], "needs both low and high"),
+        ([ChartPoint("a", None, 0.4, 0.6)], "without a value"),
+        ([("a", 0.5)], "not a ChartPoint"),
     ],
 )
 def test_trend_rejects_bad_series(tmp_path, series, match) -> None:
@@ -356,9 +356,9 @@ def test_trend_rejects_bad_series(tmp_path, series, match) -> None:
 
 def test_trend_rejects_bad_bound(tmp_path) -> None:
     with pytest.raises(GateError, match="bound must be a number or a Bound"):
-        plot_trend([TrendPoint("a", 0.5)], title="t", path=tmp_path / "t", bound="0.5")  # type: ignore[arg-type]
+        plot_trend([ChartPoint("a", 0.5)], title="t", path=tmp_path / "t", bound="0.5")  # type: ignore[arg-type]
     with pytest.raises(GateError, match="not a finite number"):
-        plot_trend([TrendPoint("a", 0.5)], title="t", path=tmp_path / "t", bound=math.inf)
+        plot_trend([ChartPoint("a", 0.5)], title="t", path=tmp_path / "t", bound=math.inf)
 
 
 # --- hostile text, files, determinism -------------------------------------------------------------
@@ -374,7 +374,7 @@ def test_hostile_names_render_literally(tmp_path, hm) -> None:
     title = fig.get_suptitle()
     assert "\n" not in title and "\t" not in title
     assert "$" not in title.replace(r"\$", "")  # every dollar escaped: no mathtext
-    series = [TrendPoint(HOSTILE, 0.5, alarm=HOSTILE), TrendPoint("$x$", 0.4, alarm="cusum $")]
+    series = [ChartPoint(HOSTILE, 0.5, alarm=HOSTILE), ChartPoint("$x$", 0.4, alarm="cusum $")]
     plot_trend(series, title=HOSTILE, path=tmp_path / "t", formats=["png"], ylabel=HOSTILE)
 
 
