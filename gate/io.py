@@ -885,21 +885,22 @@ def write_frame(frame: pd.DataFrame, path: str | os.PathLike[str]) -> Path:
     return target
 
 
+def _maybe_gzip(fh: IO[bytes], gz: bool) -> contextlib.AbstractContextManager[IO[bytes]]:
+    """``fh`` itself, or a gzip stream into it (closing the stream leaves ``fh`` open)."""
+    if gz:
+        # mtime=0: the same table always gives the same bytes
+        return gzip.GzipFile(fileobj=fh, mode="wb", mtime=0)  # type: ignore[return-value]
+    return contextlib.nullcontext(fh)
+
+
 def _write_csv(frame: pd.DataFrame, fh: IO[bytes], *, gz: bool) -> None:
     import io as _io
 
-    if gz:
-        # mtime=0: the same table always gives the same bytes
-        with gzip.GzipFile(fileobj=fh, mode="wb", mtime=0) as zfh:
-            text = _io.TextIOWrapper(zfh, encoding="utf-8", newline="")
-            frame.to_csv(text, index=False, lineterminator="\n")
-            text.flush()
-            text.detach()  # leave closing to the owners of the underlying files
-    else:
-        text = _io.TextIOWrapper(fh, encoding="utf-8", newline="")
+    with _maybe_gzip(fh, gz) as out:
+        text = _io.TextIOWrapper(out, encoding="utf-8", newline="")
         frame.to_csv(text, index=False, lineterminator="\n")
         text.flush()
-        text.detach()
+        text.detach()  # leave closing to the owners of the underlying files
 
 
 def _write_parquet(frame: pd.DataFrame, fh: IO[bytes], path: str | os.PathLike[str]) -> None:
@@ -921,11 +922,8 @@ def _write_jsonl(frame: pd.DataFrame, fh: IO[bytes], *, gz: bool) -> None:
         for row in zip(*lists, strict=True):
             yield (json.dumps(dict(zip(columns, row, strict=True)), allow_nan=False) + "\n").encode("utf-8")
 
-    if gz:
-        with gzip.GzipFile(fileobj=fh, mode="wb", mtime=0) as zfh:
-            zfh.writelines(lines())
-    else:
-        fh.writelines(lines())
+    with _maybe_gzip(fh, gz) as out:
+        out.writelines(lines())
 
 
 def _json_values(values: NDArray[Any]) -> list[Any]:
