@@ -413,9 +413,8 @@ def _check_counts(m: int, n: int) -> None:
 
 
 def _sorted_blocks(r: Ranking, positions: NDArray[np.intp]) -> NDArray[np.intp]:
-    """Block index of the examples at the given sorted positions."""
-    if r.k == r.n:
-        return positions
+    """Block index of the examples at the given sorted positions (a ranking with ties; without
+    them the block index is the position, which :func:`_own_placements` handles itself)."""
     return np.searchsorted(r.starts, positions, side="right") - 1
 
 
