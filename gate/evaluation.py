@@ -240,12 +240,14 @@ class _Context:
         default_factory=dict
     )
     drawn: dict[tuple[SliceKey | None, str], dict[str, Any]] = field(default_factory=dict)
-    rankings: dict[tuple[SliceKey | None, str], rk.Ranking] = field(default_factory=dict)
+    rankings: dict[tuple[SliceKey | None, str], tuple[rk.Ranking, rk.TieBlocks]] = field(default_factory=dict)
 
-    def ranking(self, key: SliceKey | None, which: str, table: ScoreTable) -> rk.Ranking:
+    def ranking(self, key: SliceKey | None, which: str, table: ScoreTable) -> tuple[rk.Ranking, rk.TieBlocks]:
+        """One model's ranking on one slice and its tie blocks, computed once for every check."""
         slot = (key, which)
         if slot not in self.rankings:
-            self.rankings[slot] = rk.rank(table.scores, table.labels, table.weights)
+            ranking = rk.rank(table.scores, table.labels, table.weights)
+            self.rankings[slot] = (ranking, ranking.blocks())
         return self.rankings[slot]
 
     def replicates(
@@ -383,8 +385,7 @@ def _evaluate_one(
         return CheckResult(**common, outcome="skipped", passed=True, value=None, interval=None, reason=skip)
 
     statistic = _statistic(check)
-    c_rank = ctx.ranking(key, "candidate", cand)
-    c_blocks = c_rank.blocks()
+    c_rank, c_blocks = ctx.ranking(key, "candidate", cand)
     value = float(statistic(c_blocks))
     threshold = _operating_threshold(check, c_blocks)
 
@@ -397,8 +398,8 @@ def _evaluate_one(
     margin = check.margin
     if margin is not None:
         assert base is not None
-        b_rank = ctx.ranking(key, "baseline", base)
-        baseline_value = float(statistic(b_rank.blocks()))
+        b_rank, b_blocks = ctx.ranking(key, "baseline", base)
+        baseline_value = float(statistic(b_blocks))
         if _use_delong(check, pol, cand, base):
             est = st.delong(c_rank)
             interval = est.interval(confidence=conf, scale=_auc_scale(pol))
