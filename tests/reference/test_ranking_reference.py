@@ -16,6 +16,7 @@ import pytest
 from gate.ranking import (
     TieBlocks,
     average_precision,
+    brier,
     confusion_at,
     hull_auc,
     optimal_cost,
@@ -341,3 +342,17 @@ def test_rank_reuses_the_sort_for_reweighting() -> None:
     aucs = roc_auc(r.blocks(counts))
     for i in range(4):
         assert aucs[i] == pytest.approx(sklearn_metrics.roc_auc_score(y, s, sample_weight=counts[i]), rel=1e-12)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_brier_against_sklearn(weighted: bool) -> None:
+    # Reference: scikit-learn 1.9.1 brier_score_loss (mean squared difference between the predicted
+    # probability and the 0/1 outcome, with sample_weight), on tie-heavy probabilities.
+    from sklearn.metrics import brier_score_loss
+
+    rng = np.random.default_rng(11)
+    y = rng.random(3000) < 0.2
+    p = np.round(np.clip(0.2 + 0.3 * y + rng.normal(0, 0.2, 3000), 0, 1), 2)
+    w = rng.integers(0, 4, 3000).astype(float) if weighted else None
+    ours = brier(tie_blocks(p, y, w))
+    assert ours == pytest.approx(brier_score_loss(y, p, sample_weight=w), rel=1e-12)
